@@ -1,0 +1,32 @@
+import { sveltekit } from '@sveltejs/kit/vite';
+import tailwindcss from '@tailwindcss/vite';
+import { defineConfig } from 'vitest/config';
+import { skeinSockets } from './server-ws/vite-plugin';
+
+export default defineConfig({
+	plugins: [tailwindcss(), sveltekit(), skeinSockets()],
+	server: { host: '127.0.0.1' },
+	test: {
+		projects: [
+			{
+				extends: true,
+				test: {
+					name: 'unit',
+					include: ['src/**/*.test.ts'],
+					environment: 'node'
+				}
+			},
+			{
+				extends: true,
+				test: {
+					name: 'integration',
+					include: ['tests/integration/**/*.test.ts'],
+					environment: 'node',
+					fileParallelism: false,
+					testTimeout: 60_000,
+					hookTimeout: 120_000
+				}
+			}
+		]
+	}
+});
