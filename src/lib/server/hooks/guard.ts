@@ -1,0 +1,38 @@
+import { error, json, redirect, type Handle } from '@sveltejs/kit';
+import { can } from '$lib/permissions';
+import { ruleFor } from '$server/access';
+
+function isLoopback(address: string): boolean {
+	return address === '127.0.0.1' || address === '::1' || address === '::ffff:127.0.0.1';
+}
+
+/** Enforces src/lib/server/access.ts before any load, action or endpoint runs. Fails closed. */
+export const guard: Handle = async ({ event, resolve }) => {
+	const routeId = event.route.id;
+	if (!routeId) return resolve(event);
+	const isApi = routeId.startsWith('/api/') || routeId === '/metrics' || routeId === '/healthz';
+	const rule = ruleFor(routeId, event.request.method, event.url.searchParams);
+
+	const deny = (status: 401 | 403 | 405, message: string) => {
+		if (isApi) {
+			const code = status === 401 ? 'unauthenticated' : status === 403 ? 'forbidden' : 'method_not_allowed';
+			return json({ error: { code, message } }, { status });
+		}
+		error(status, message);
+	};
+
+	if (rule === undefined) return deny(405, 'This route does not accept that request');
+	if (rule === 'public') return resolve(event);
+
+	const entryLoopback = routeId === '/metrics' && isLoopback(event.getClientAddress());
+	if (entryLoopback) return resolve(event);
+
+	const user = event.locals.user;
+	if (!user) {
+		if (isApi) return deny(401, 'Sign in or send a personal API token (Authorization: Bearer …)');
+		const next = event.url.pathname + event.url.search;
+		redirect(303, `/sign-in?next=${encodeURIComponent(next)}`);
+	}
+	if (rule === 'signed-in' || can(user.role, rule)) return resolve(event);
+	return deny(403, `Your role (${user.role}) may not do this`);
+};
