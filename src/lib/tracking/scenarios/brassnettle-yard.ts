@@ -99,10 +99,10 @@ export const brassnettleYard: Scenario = {
 	sensor: {
 		name: 'lantern-mast',
 		range: 65,
-		minRange: 2,
+		minRange: 0.5,
 		halfAngle: Math.PI,
-		pdNear: 0.95,
-		pdFar: 0.85,
+		pdNear: 0.97,
+		pdFar: 0.9,
 		noiseSd: 0.25,
 		clutterRate: 6
 	},

@@ -87,7 +87,7 @@ export const glassmereReach: Scenario = {
 		minRange: 1,
 		halfAngle: HALF_ANGLE,
 		pdNear: 0.95,
-		pdFar: 0.8,
+		pdFar: 0.85,
 		noiseSd: 0.5,
 		clutterRate: 10
 	},

@@ -19,11 +19,11 @@ interface Arm {
 }
 
 const ARMS: Arm[] = [
-	// The ego uses the south arm, so fewer arrivals queue behind it there.
-	{ label: 'south arm', heading: Math.PI / 2, rate: 1 / 16 },
-	{ label: 'north arm', heading: -Math.PI / 2, rate: 1 / 8 },
-	{ label: 'west arm', heading: 0, rate: 1 / 8 },
-	{ label: 'east arm', heading: Math.PI, rate: 1 / 9 }
+	// The ego shuttles along the north-south road, so little traffic shares its lanes.
+	{ label: 'south arm', heading: Math.PI / 2, rate: 1 / 30 },
+	{ label: 'north arm', heading: -Math.PI / 2, rate: 1 / 30 },
+	{ label: 'west arm', heading: 0, rate: 1 / 7 },
+	{ label: 'east arm', heading: Math.PI, rate: 1 / 7 }
 ];
 
 /** Entry point of an arm's inbound lane, `back` metres from the centre. */
@@ -79,10 +79,10 @@ export const lanternfallCrossing: Scenario = {
 	sensor: {
 		name: 'roof-halo',
 		range: 100,
-		minRange: 2,
+		minRange: 0.5,
 		halfAngle: Math.PI,
-		pdNear: 0.97,
-		pdFar: 0.85,
+		pdNear: 0.98,
+		pdFar: 0.9,
 		noiseSd: 0.3,
 		clutterRate: 8
 	},
