@@ -22,6 +22,7 @@ export default defineConfig({
 					name: 'integration',
 					include: ['tests/integration/**/*.test.ts'],
 					environment: 'node',
+					globalSetup: ['tests/integration/global-setup.ts'],
 					fileParallelism: false,
 					testTimeout: 60_000,
 					hookTimeout: 120_000
