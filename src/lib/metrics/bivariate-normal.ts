@@ -76,10 +76,18 @@ export function bivariateNormalUpper(h: number, k: number, r: number): number {
 			const bs = (h - k) * (h - k);
 			const c = (4 - hk) / 8;
 			const d = (12 - hk) / 16;
-			bvn = a * Math.exp(-(bs / as + hk) / 2) * (1 - (c * (bs - as) * (1 - (d * bs) / 5)) / 3 + (c * d * as * as) / 5);
+			bvn =
+				a *
+				Math.exp(-(bs / as + hk) / 2) *
+				(1 - (c * (bs - as) * (1 - (d * bs) / 5)) / 3 + (c * d * as * as) / 5);
 			if (hk > -160) {
 				const b = Math.sqrt(bs);
-				bvn -= Math.exp(-hk / 2) * Math.sqrt(TWO_PI) * normalCdf(-b / a) * b * (1 - (c * bs * (1 - (d * bs) / 5)) / 3);
+				bvn -=
+					Math.exp(-hk / 2) *
+					Math.sqrt(TWO_PI) *
+					normalCdf(-b / a) *
+					b *
+					(1 - (c * bs * (1 - (d * bs) / 5)) / 3);
 			}
 			a /= 2;
 			for (let i = 0; i < x.length; i++) {
@@ -89,7 +97,8 @@ export function bivariateNormalUpper(h: number, k: number, r: number): number {
 					bvn +=
 						a *
 						w[i] *
-						(Math.exp(-bs / (2 * xs) - hk / (1 + rs)) / rs - Math.exp(-(bs / xs + hk) / 2) * (1 + c * xs * (1 + d * xs)));
+						(Math.exp(-bs / (2 * xs) - hk / (1 + rs)) / rs -
+							Math.exp(-(bs / xs + hk) / 2) * (1 + c * xs * (1 + d * xs)));
 				}
 			}
 			bvn = -bvn / TWO_PI;
@@ -125,7 +134,11 @@ export type Cov2 = readonly [number, number, number];
  * P(mean + noise ∈ rect) for Gaussian noise with covariance `cov`. A covariance that is not
  * positive semi-definite (or not finite) is reported as null so callers can fall back to a point.
  */
-export function gaussianRectProbability(mean: readonly [number, number], cov: Cov2, rect: Rect): number | null {
+export function gaussianRectProbability(
+	mean: readonly [number, number],
+	cov: Cov2,
+	rect: Rect
+): number | null {
 	const [sxx, sxy, syy] = cov;
 	if (!Number.isFinite(sxx) || !Number.isFinite(sxy) || !Number.isFinite(syy)) return null;
 	if (sxx < 0 || syy < 0 || sxy * sxy > sxx * syy * (1 + 1e-12)) return null;

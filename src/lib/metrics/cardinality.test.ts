@@ -1,5 +1,10 @@
 import { describe, expect, it } from 'vitest';
-import { cardinalityDistribution, cardinalityError, cardinalityStats, expectedCardinality } from './cardinality';
+import {
+	cardinalityDistribution,
+	cardinalityError,
+	cardinalityStats,
+	expectedCardinality
+} from './cardinality';
 import { seededRandom } from './test-support';
 
 /** P(N = k) by enumerating all 2ⁿ existence patterns (definition of the Poisson-binomial law). */

@@ -12,7 +12,8 @@ export interface CardinalityStats {
 /** Existence probability of an estimate; a missing r means the tracker asserts the object exists. */
 export function existence(r: number | undefined): number {
 	if (r === undefined) return 1;
-	if (!(r >= 0 && r <= 1)) throw new RangeError(`existence probability must be in [0, 1], got ${r}`);
+	if (!(r >= 0 && r <= 1))
+		throw new RangeError(`existence probability must be in [0, 1], got ${r}`);
 	return r;
 }
 
@@ -59,7 +60,10 @@ export interface CardinalityError {
 	probabilityOfTruth: number;
 }
 
-export function cardinalityError(estimates: readonly { r?: number }[], nTruth: number): CardinalityError {
+export function cardinalityError(
+	estimates: readonly { r?: number }[],
+	nTruth: number
+): CardinalityError {
 	const stats = cardinalityStats(estimates);
 	return {
 		expected: stats.mean - nTruth,

@@ -12,7 +12,12 @@ export function nees(error: ArrayLike<number>, cov: ArrayLike<number>): number |
 	const L = new Float64Array(n * n);
 	for (let i = 0; i < n; i++) {
 		for (let j = 0; j <= i; j++) {
-			if (!(Math.abs(cov[i * n + j] - cov[j * n + i]) <= 1e-9 * (Math.abs(cov[i * n + j]) + Math.abs(cov[j * n + i])) + 1e-300)) {
+			if (
+				!(
+					Math.abs(cov[i * n + j] - cov[j * n + i]) <=
+					1e-9 * (Math.abs(cov[i * n + j]) + Math.abs(cov[j * n + i])) + 1e-300
+				)
+			) {
 				return null;
 			}
 			let s = cov[i * n + j];
@@ -38,7 +43,11 @@ export function nees(error: ArrayLike<number>, cov: ArrayLike<number>): number |
 }
 
 /** Rows and columns `indices` of a row-major n×n matrix, as a row-major k×k matrix. */
-export function subBlock(matrix: ArrayLike<number>, n: number, indices: readonly number[]): Float64Array {
+export function subBlock(
+	matrix: ArrayLike<number>,
+	n: number,
+	indices: readonly number[]
+): Float64Array {
 	const k = indices.length;
 	const out = new Float64Array(k * k);
 	for (let a = 0; a < k; a++) {
@@ -59,7 +68,8 @@ export interface NeesBounds {
  * assumes the errors are roughly independent over time, which makes it a screening test.
  */
 export function neesBounds(samples: number, dim: number, level = 0.95): NeesBounds {
-	if (!(samples >= 1) || !(dim >= 1)) throw new RangeError('need at least one sample of dimension ≥ 1');
+	if (!(samples >= 1) || !(dim >= 1))
+		throw new RangeError('need at least one sample of dimension ≥ 1');
 	if (!(level > 0 && level < 1)) throw new RangeError(`level must be in (0, 1), got ${level}`);
 	const dof = samples * dim;
 	return {

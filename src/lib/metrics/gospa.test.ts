@@ -36,7 +36,8 @@ function bruteForceOspa(X: Point[], Y: Point[], c: number, p: number): number {
 	if (L.length === 0) return 0;
 	const cost = new Float64Array(S.length * L.length);
 	for (let i = 0; i < S.length; i++) {
-		for (let j = 0; j < L.length; j++) cost[i * L.length + j] = Math.pow(Math.min(dist(S[i], L[j]), c), p);
+		for (let j = 0; j < L.length; j++)
+			cost[i * L.length + j] = Math.pow(Math.min(dist(S[i], L[j]), c), p);
 	}
 	const best = S.length === 0 ? 0 : bruteForceAssignmentCost(cost, S.length, L.length);
 	return Math.pow((best + Math.pow(c, p) * (L.length - S.length)) / L.length, 1 / p);
@@ -98,8 +99,12 @@ describe('gospa: hand-worked cases from the definition (FUSION 2017, α = 2)', (
 
 	it('uses weights on the full state when given', () => {
 		// State (x, y, v): weight 0 on v ignores a large speed error; weight 4 doubles the x error.
-		expect(gospa([[0, 0, 0]], [[1, 0, 50]], { c: 10, p: 2, weights: [1, 1, 0] }).localization).toBe(1);
-		expect(gospa([[0, 0, 0]], [[1, 0, 0]], { c: 10, p: 1, weights: [4, 1, 1] }).localization).toBe(2);
+		expect(gospa([[0, 0, 0]], [[1, 0, 50]], { c: 10, p: 2, weights: [1, 1, 0] }).localization).toBe(
+			1
+		);
+		expect(gospa([[0, 0, 0]], [[1, 0, 0]], { c: 10, p: 1, weights: [4, 1, 1] }).localization).toBe(
+			2
+		);
 	});
 
 	it('rejects bad parameters', () => {
@@ -118,7 +123,9 @@ describe('gospa: published check value', () => {
 		expect(r.localization).toBeCloseTo(published.published.localisation_cost, 10);
 		expect((cp / 2) * r.missed).toBeCloseTo(published.published.missed_cost, 12);
 		expect((cp / 2) * r.falseCount).toBeCloseTo(published.published.false_cost, 12);
-		expect(Array.from(r.truthToEstimate, (j) => j + 1)).toEqual(published.published.x_to_y_assignment_1_based);
+		expect(Array.from(r.truthToEstimate, (j) => j + 1)).toEqual(
+			published.published.x_to_y_assignment_1_based
+		);
 	});
 });
 
@@ -143,7 +150,10 @@ describe('gospa: randomised comparisons', () => {
 		for (const size of [15, 40, 90]) {
 			for (let trial = 0; trial < 4; trial++) {
 				const X = Array.from({ length: size }, (): Point => [rand() * 100, rand() * 100]);
-				const Y = Array.from({ length: size + trial * 7 }, (): Point => [rand() * 100, rand() * 100]);
+				const Y = Array.from({ length: size + trial * 7 }, (): Point => [
+					rand() * 100,
+					rand() * 100
+				]);
 				const c = 8;
 				const p = 2;
 				// Through the same reduction: cut-off costs, then assignment of min(|X|, |Y|) pairs.

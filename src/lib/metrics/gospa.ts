@@ -48,8 +48,10 @@ export interface OspaResult {
 }
 
 export function checkOrder(c: number, p: number): void {
-	if (!(c > 0) || !Number.isFinite(c)) throw new RangeError(`cut-off c must be finite and > 0, got ${c}`);
-	if (!(p >= 1) || !Number.isFinite(p)) throw new RangeError(`order p must satisfy 1 ≤ p < ∞, got ${p}`);
+	if (!(c > 0) || !Number.isFinite(c))
+		throw new RangeError(`cut-off c must be finite and > 0, got ${c}`);
+	if (!(p >= 1) || !Number.isFinite(p))
+		throw new RangeError(`order p must satisfy 1 ≤ p < ∞, got ${p}`);
 }
 
 /** Squared (weighted) Euclidean distance between two vectors of the same length. */
@@ -65,12 +67,17 @@ export function squaredDistance(a: Point, b: Point, weights?: ArrayLike<number>)
 }
 
 /** GOSPA and OSPA between truth X and estimates Y (each a list of equal-length vectors). */
-export function gospa(truth: readonly Point[], estimates: readonly Point[], options: GospaOptions): GospaResult {
+export function gospa(
+	truth: readonly Point[],
+	estimates: readonly Point[],
+	options: GospaOptions
+): GospaResult {
 	const m = truth.length;
 	const n = estimates.length;
 	const d2 = new Float64Array(m * n);
 	for (let i = 0; i < m; i++) {
-		for (let j = 0; j < n; j++) d2[i * n + j] = squaredDistance(truth[i], estimates[j], options.weights);
+		for (let j = 0; j < n; j++)
+			d2[i * n + j] = squaredDistance(truth[i], estimates[j], options.weights);
 	}
 	return gospaFromSquaredDistances(d2, m, n, options.c, options.p);
 }
@@ -151,6 +158,10 @@ function powHalf(s: number, half: number): number {
 }
 
 /** OSPA alone; 0 for two empty sets, c when exactly one is empty. */
-export function ospa(truth: readonly Point[], estimates: readonly Point[], options: GospaOptions): OspaResult {
+export function ospa(
+	truth: readonly Point[],
+	estimates: readonly Point[],
+	options: GospaOptions
+): OspaResult {
 	return gospa(truth, estimates, options).ospa;
 }

@@ -1,8 +1,9 @@
 /** Special functions: log-gamma, regularized incomplete gamma, normal and chi-square distributions. */
 
 const LANCZOS = [
-	0.99999999999980993, 676.5203681218851, -1259.1392167224028, 771.32342877765313, -176.61502916214059,
-	12.507343278686905, -0.13857109526572012, 9.9843695780195716e-6, 1.5056327351493116e-7
+	0.99999999999980993, 676.5203681218851, -1259.1392167224028, 771.32342877765313,
+	-176.61502916214059, 12.507343278686905, -0.13857109526572012, 9.9843695780195716e-6,
+	1.5056327351493116e-7
 ];
 
 /** ln Γ(x) for x > 0 (Lanczos approximation, g = 7, about 15 significant digits). */
@@ -93,22 +94,36 @@ export function normalQuantile(q: number): number {
 	if (!(q >= 0 && q <= 1)) throw new RangeError(`probability must be in [0, 1], got ${q}`);
 	if (q === 0) return -Infinity;
 	if (q === 1) return Infinity;
-	const a = [-39.69683028665376, 220.9460984245205, -275.9285104469687, 138.357751867269, -30.66479806614716, 2.506628277459239];
-	const b = [-54.47609879822406, 161.5858368580409, -155.6989798598866, 66.80131188771972, -13.28068155288572];
-	const c = [-0.007784894002430293, -0.3223964580411365, -2.400758277161838, -2.549732539343734, 4.374664141464968, 2.938163982698783];
+	const a = [
+		-39.69683028665376, 220.9460984245205, -275.9285104469687, 138.357751867269, -30.66479806614716,
+		2.506628277459239
+	];
+	const b = [
+		-54.47609879822406, 161.5858368580409, -155.6989798598866, 66.80131188771972, -13.28068155288572
+	];
+	const c = [
+		-0.007784894002430293, -0.3223964580411365, -2.400758277161838, -2.549732539343734,
+		4.374664141464968, 2.938163982698783
+	];
 	const d = [0.007784695709041462, 0.3224671290700398, 2.445134137142996, 3.754408661907416];
 	const low = 0.02425;
 	let x: number;
 	if (q < low) {
 		const s = Math.sqrt(-2 * Math.log(q));
-		x = (((((c[0] * s + c[1]) * s + c[2]) * s + c[3]) * s + c[4]) * s + c[5]) / ((((d[0] * s + d[1]) * s + d[2]) * s + d[3]) * s + 1);
+		x =
+			(((((c[0] * s + c[1]) * s + c[2]) * s + c[3]) * s + c[4]) * s + c[5]) /
+			((((d[0] * s + d[1]) * s + d[2]) * s + d[3]) * s + 1);
 	} else if (q <= 1 - low) {
 		const s = q - 0.5;
 		const r = s * s;
-		x = ((((((a[0] * r + a[1]) * r + a[2]) * r + a[3]) * r + a[4]) * r + a[5]) * s) / (((((b[0] * r + b[1]) * r + b[2]) * r + b[3]) * r + b[4]) * r + 1);
+		x =
+			((((((a[0] * r + a[1]) * r + a[2]) * r + a[3]) * r + a[4]) * r + a[5]) * s) /
+			(((((b[0] * r + b[1]) * r + b[2]) * r + b[3]) * r + b[4]) * r + 1);
 	} else {
 		const s = Math.sqrt(-2 * Math.log(1 - q));
-		x = -(((((c[0] * s + c[1]) * s + c[2]) * s + c[3]) * s + c[4]) * s + c[5]) / ((((d[0] * s + d[1]) * s + d[2]) * s + d[3]) * s + 1);
+		x =
+			-(((((c[0] * s + c[1]) * s + c[2]) * s + c[3]) * s + c[4]) * s + c[5]) /
+			((((d[0] * s + d[1]) * s + d[2]) * s + d[3]) * s + 1);
 	}
 	// Halley step; in the upper half the error is measured on the upper tail to keep digits.
 	const e = q < 0.5 ? normalCdf(x) - q : 1 - q - normalCdf(-x);
@@ -128,7 +143,8 @@ export function chiSquareCdf(x: number, k: number): number {
  * tail so that probabilities near 1 keep their digits.
  */
 export function chiSquareQuantile(q: number, k: number): number {
-	if (!(k > 0) || !Number.isFinite(k)) throw new RangeError(`degrees of freedom must be > 0, got ${k}`);
+	if (!(k > 0) || !Number.isFinite(k))
+		throw new RangeError(`degrees of freedom must be > 0, got ${k}`);
 	if (!(q >= 0 && q <= 1)) throw new RangeError(`probability must be in [0, 1], got ${q}`);
 	if (q === 0) return 0;
 	if (q === 1) return Infinity;

@@ -22,7 +22,11 @@ export function normalSource(uniform: () => number): () => number {
 }
 
 /** Minimum assignment cost over all injections of the smaller side into the larger one. */
-export function bruteForceAssignmentCost(cost: ArrayLike<number>, rows: number, cols: number): number {
+export function bruteForceAssignmentCost(
+	cost: ArrayLike<number>,
+	rows: number,
+	cols: number
+): number {
 	const tall = rows > cols;
 	const small = tall ? cols : rows;
 	const large = tall ? rows : cols;

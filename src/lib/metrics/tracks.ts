@@ -169,7 +169,13 @@ export class TrackAccumulator {
 			if (tk !== null) {
 				state = this.#truth.get(tk);
 				if (!state) {
-					state = { firstSeen: t, firstMatched: null, lastEstimate: null, tracked: false, interrupted: false };
+					state = {
+						firstSeen: t,
+						firstMatched: null,
+						lastEstimate: null,
+						tracked: false,
+						interrupted: false
+					};
 					this.#truth.set(tk, state);
 				}
 			}

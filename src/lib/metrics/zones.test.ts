@@ -1,7 +1,18 @@
 import { describe, expect, it } from 'vitest';
-import { bivariateNormalCdf, bivariateNormalUpper, gaussianRectProbability, gaussLegendreHalf } from './bivariate-normal';
+import {
+	bivariateNormalCdf,
+	bivariateNormalUpper,
+	gaussianRectProbability,
+	gaussLegendreHalf
+} from './bivariate-normal';
 import { normalCdf } from './special';
-import { changeCoords, insideProbability, zoneOccupancy, type PlanarObject, type Zone } from './zones';
+import {
+	changeCoords,
+	insideProbability,
+	zoneOccupancy,
+	type PlanarObject,
+	type Zone
+} from './zones';
 import { normalSource, seededRandom } from './test-support';
 
 /** P(X > h, Y > k) = ∫_h^∞ φ(x) Φ((ρx − k)/√(1−ρ²)) dx by composite Simpson on [h, 10] (a separate route). */
@@ -10,7 +21,8 @@ function upperByQuadrature(h: number, k: number, rho: number): number {
 	const n = 20000;
 	const step = (hi - h) / n;
 	const s = Math.sqrt(1 - rho * rho);
-	const f = (x: number) => (Math.exp((-x * x) / 2) / Math.sqrt(2 * Math.PI)) * normalCdf((rho * x - k) / s);
+	const f = (x: number) =>
+		(Math.exp((-x * x) / 2) / Math.sqrt(2 * Math.PI)) * normalCdf((rho * x - k) / s);
 	let sum = f(h) + f(hi);
 	for (let i = 1; i < n; i++) sum += (i % 2 ? 4 : 2) * f(h + i * step);
 	return (sum * step) / 3;
@@ -32,8 +44,13 @@ describe('Gauss–Legendre rules', () => {
 describe('bivariate normal', () => {
 	it("matches Sheppard's orthant formula P(X>0, Y>0) = 1/4 + asin(ρ)/(2π)", () => {
 		// W. F. Sheppard, Phil. Trans. R. Soc. A 192 (1899).
-		for (const rho of [-1, -0.999, -0.95, -0.9, -0.5, -0.2, 0, 0.1, 0.29, 0.31, 0.6, 0.8, 0.93, 0.99, 1]) {
-			expect(bivariateNormalUpper(0, 0, rho)).toBeCloseTo(0.25 + Math.asin(rho) / (2 * Math.PI), 14);
+		for (const rho of [
+			-1, -0.999, -0.95, -0.9, -0.5, -0.2, 0, 0.1, 0.29, 0.31, 0.6, 0.8, 0.93, 0.99, 1
+		]) {
+			expect(bivariateNormalUpper(0, 0, rho)).toBeCloseTo(
+				0.25 + Math.asin(rho) / (2 * Math.PI),
+				14
+			);
 		}
 	});
 
@@ -87,7 +104,10 @@ describe('bivariate normal', () => {
 	it('handles degenerate covariances', () => {
 		const rect = { xMin: 0, xMax: 2, yMin: -1, yMax: 1 };
 		expect(gaussianRectProbability([1, 0], [0, 0, 0], rect)).toBe(1);
-		expect(gaussianRectProbability([1, 0], [0, 0, 1], rect)).toBeCloseTo(normalCdf(1) - normalCdf(-1), 14);
+		expect(gaussianRectProbability([1, 0], [0, 0, 1], rect)).toBeCloseTo(
+			normalCdf(1) - normalCdf(-1),
+			14
+		);
 		expect(gaussianRectProbability([1, 0], [1, 2, 1], rect)).toBeNull();
 	});
 });

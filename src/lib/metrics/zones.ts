@@ -34,13 +34,22 @@ function rigid(o: PlanarObject, theta: number, tx: number, ty: number): PlanarOb
 	if (o.cov) {
 		// R Σ Rᵀ for R = [[c, −s], [s, c]].
 		const [a, b, d] = o.cov;
-		out.cov = [c * c * a - 2 * c * s * b + s * s * d, c * s * (a - d) + (c * c - s * s) * b, s * s * a + 2 * c * s * b + c * c * d];
+		out.cov = [
+			c * c * a - 2 * c * s * b + s * s * d,
+			c * s * (a - d) + (c * c - s * s) * b,
+			s * s * a + 2 * c * s * b + c * c * d
+		];
 	}
 	return out;
 }
 
 /** Express an object given in `from` coordinates in `to` coordinates; null if the ego pose is needed but absent. */
-export function changeCoords(o: PlanarObject, from: Coords, to: Coords, ego: EgoPose | undefined): PlanarObject | null {
+export function changeCoords(
+	o: PlanarObject,
+	from: Coords,
+	to: Coords,
+	ego: EgoPose | undefined
+): PlanarObject | null {
 	if (from === to) return o;
 	if (!ego) return null;
 	if (from === 'ego') return rigid(o, ego.heading, ego.x, ego.y);
@@ -54,7 +63,8 @@ export function insideProbability(o: PlanarObject, zone: Zone): number {
 	const cy = (zone.y[0] + zone.y[1]) / 2;
 	const angle = zone.angle ?? 0;
 	// Into the rectangle's own axes: undo the rotation about its centre.
-	const local = angle === 0 ? o : rigid({ ...o, mean: [o.mean[0] - cx, o.mean[1] - cy] }, -angle, cx, cy);
+	const local =
+		angle === 0 ? o : rigid({ ...o, mean: [o.mean[0] - cx, o.mean[1] - cy] }, -angle, cx, cy);
 	const rect = { xMin: zone.x[0], xMax: zone.x[1], yMin: zone.y[0], yMax: zone.y[1] };
 	const [x, y] = local.mean;
 	const pointInside = x >= rect.xMin && x <= rect.xMax && y >= rect.yMin && y <= rect.yMax ? 1 : 0;

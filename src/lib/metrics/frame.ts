@@ -1,0 +1,189 @@
+/** Per-frame metrics as computed at ingest, and the detail behind them for the run screen. */
+import type { Estimate, Frame, TruthObject } from '../protocol/types';
+import { cardinalityStats, type CardinalityStats } from './cardinality';
+import { nees as neesOf, subBlock } from './consistency';
+import { gospaFromSquaredDistances, squaredDistance, type GospaResult } from './gospa';
+import type { MetricSettings } from './settings';
+import { changeCoords, zoneOccupancy, type Coords, type PlanarObject } from './zones';
+
+export interface FrameContext {
+	/** the run's state_fields; must include "x" and "y" */
+	stateFields: readonly string[];
+	settings: MetricSettings;
+	/** coordinates the run reports objects in; default 'world' */
+	coords?: Coords;
+}
+
+export interface FrameMetrics {
+	n_truth: number | null;
+	n_estimates: number | null;
+	n_measurements: number | null;
+	expected_cardinality: number | null;
+	gospa: number | null;
+	/** Σ d^p over assigned pairs (p-th power of the length unit) */
+	gospa_localization: number | null;
+	gospa_missed: number | null;
+	gospa_false: number | null;
+	ospa: number | null;
+	nees_mean: number | null;
+	/** how many estimates nees_mean averages, so stored rows can be re-averaged */
+	nees_count: number;
+	/** occupancy per zone name; a zone is absent when it cannot be computed (no estimates, or no ego pose to change coordinates) */
+	zones: Record<string, number>;
+}
+
+export interface FrameEvaluation {
+	metrics: FrameMetrics;
+	gospa: GospaResult | null;
+	cardinality: CardinalityStats | null;
+	/** NEES per estimate (index as in frame.estimates), null where not computed */
+	nees: (number | null)[];
+}
+
+export interface StateLayout {
+	dim: number;
+	ix: number;
+	iy: number;
+}
+
+export function stateLayout(stateFields: readonly string[]): StateLayout {
+	const ix = stateFields.indexOf('x');
+	const iy = stateFields.indexOf('y');
+	if (ix < 0 || iy < 0) throw new RangeError('state_fields must include "x" and "y"');
+	return { dim: stateFields.length, ix, iy };
+}
+
+/** NEES dimension the settings imply. */
+export function neesDimension(ctx: FrameContext): number {
+	return ctx.settings.nees === 'state' ? ctx.stateFields.length : 2;
+}
+
+export function frameMetrics(frame: Frame, ctx: FrameContext): FrameMetrics {
+	return evaluateFrame(frame, ctx).metrics;
+}
+
+export function evaluateFrame(
+	frame: Frame,
+	ctx: FrameContext,
+	layout = stateLayout(ctx.stateFields)
+): FrameEvaluation {
+	const { settings } = ctx;
+	const { truth, estimates } = frame;
+	const cardinality = estimates ? cardinalityStats(estimates) : null;
+	const g = truth && estimates ? frameGospa(truth, estimates, settings, layout) : null;
+
+	const nees: (number | null)[] = estimates ? estimates.map(() => null) : [];
+	let neesSum = 0;
+	let neesCount = 0;
+	if (g && truth && estimates) {
+		for (const [i, j] of g.pairs) {
+			const v = pairNees(truth[i], estimates[j], settings.nees ?? 'position', layout);
+			nees[j] = v;
+			if (v !== null) {
+				neesSum += v;
+				neesCount++;
+			}
+		}
+	}
+
+	const zones: Record<string, number> = {};
+	if (estimates) {
+		const planar = estimates.map((e) => planarOf(e, layout));
+		for (const zone of settings.zones) {
+			const moved: PlanarObject[] = [];
+			let ok = true;
+			for (const o of planar) {
+				const m = changeCoords(o, ctx.coords ?? 'world', zone.coords, frame.ego);
+				if (!m) {
+					ok = false;
+					break;
+				}
+				moved.push(m);
+			}
+			if (ok) zones[zone.name] = zoneOccupancy(moved, zone);
+		}
+	}
+
+	return {
+		metrics: {
+			n_truth: truth ? truth.length : null,
+			n_estimates: estimates ? estimates.length : null,
+			n_measurements: frame.measurements ? frame.measurements.length : null,
+			expected_cardinality: cardinality ? cardinality.mean : null,
+			gospa: g ? g.gospa : null,
+			gospa_localization: g ? g.localization : null,
+			gospa_missed: g ? g.missed : null,
+			gospa_false: g ? g.falseCount : null,
+			ospa: g ? g.ospa.ospa : null,
+			nees_mean: neesCount > 0 ? neesSum / neesCount : null,
+			nees_count: neesCount,
+			zones
+		},
+		gospa: g,
+		cardinality,
+		nees
+	};
+}
+
+/** GOSPA on positions or on the weighted full state; null when truth lacks the fields needed. */
+function frameGospa(
+	truth: readonly TruthObject[],
+	estimates: readonly Estimate[],
+	settings: MetricSettings,
+	layout: StateLayout
+): GospaResult | null {
+	const m = truth.length;
+	const n = estimates.length;
+	const d2 = new Float64Array(m * n);
+	if (settings.distance === 'state') {
+		if (
+			truth.some((t) => t.x.length !== layout.dim) ||
+			estimates.some((e) => e.x.length !== layout.dim)
+		)
+			return null;
+		for (let i = 0; i < m; i++) {
+			for (let j = 0; j < n; j++)
+				d2[i * n + j] = squaredDistance(truth[i].x, estimates[j].x, settings.weights);
+		}
+	} else {
+		const { ix, iy } = layout;
+		for (let i = 0; i < m; i++) {
+			const tx = truth[i].x[ix];
+			const ty = truth[i].x[iy];
+			if (tx === undefined || ty === undefined) return null;
+			for (let j = 0; j < n; j++) {
+				const dx = estimates[j].x[ix] - tx;
+				const dy = estimates[j].x[iy] - ty;
+				d2[i * n + j] = dx * dx + dy * dy;
+			}
+		}
+	}
+	for (let k = 0; k < d2.length; k++) if (!(d2[k] >= 0)) return null;
+	return gospaFromSquaredDistances(d2, m, n, settings.c, settings.p);
+}
+
+function pairNees(
+	t: TruthObject,
+	e: Estimate,
+	mode: 'position' | 'state',
+	layout: StateLayout
+): number | null {
+	const { dim, ix, iy } = layout;
+	if (!e.P || e.P.length !== dim * dim) return null;
+	if (mode === 'state') {
+		if (t.x.length !== dim || e.x.length !== dim) return null;
+		return neesOf(
+			e.x.map((v, k) => v - t.x[k]),
+			e.P
+		);
+	}
+	return neesOf([e.x[ix] - t.x[ix], e.x[iy] - t.x[iy]], subBlock(e.P, dim, [ix, iy]));
+}
+
+function planarOf(e: Estimate, layout: StateLayout): PlanarObject {
+	const { dim, ix, iy } = layout;
+	const o: PlanarObject = { mean: [e.x[ix], e.x[iy]], r: e.r };
+	if (e.P && e.P.length === dim * dim)
+		o.cov = [e.P[ix * dim + ix], e.P[ix * dim + iy], e.P[iy * dim + iy]];
+	return o;
+}
