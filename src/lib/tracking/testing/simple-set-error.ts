@@ -62,3 +62,27 @@ export function bruteForceGospa(xs: readonly Point[], ys: readonly Point[], c: n
 	visit(0, 0, 0);
 	return best;
 }
+
+/**
+ * The same GOSPA on larger sets: pairs at c or more are never assigned, so the problem splits into the
+ * connected groups of points closer than c, each enumerated on its own.
+ */
+export function clusteredGospa(xs: readonly Point[], ys: readonly Point[], c: number): number {
+	const n = xs.length;
+	const parent = Array.from({ length: n + ys.length }, (_, i) => i);
+	const find = (i: number): number => (parent[i] === i ? i : (parent[i] = find(parent[i])));
+	for (let i = 0; i < n; i++)
+		for (let j = 0; j < ys.length; j++)
+			if (Math.hypot(xs[i][0] - ys[j][0], xs[i][1] - ys[j][1]) < c) parent[find(i)] = find(n + j);
+	const groups = new Map<number, { x: Point[]; y: Point[] }>();
+	for (let i = 0; i < parent.length; i++) {
+		const root = find(i);
+		const g = groups.get(root) ?? { x: [], y: [] };
+		if (i < n) g.x.push(xs[i]);
+		else g.y.push(ys[i - n]);
+		groups.set(root, g);
+	}
+	let total = 0;
+	for (const g of groups.values()) total += bruteForceGospa(g.x, g.y, c);
+	return total;
+}
