@@ -9,6 +9,8 @@ export function themeOf(value: string | undefined): Theme {
 
 /** Renders the chosen theme into the page so there is no flash of the other one. */
 export const theme: Handle = ({ event, resolve }) => {
-	const chosen = themeOf(event.cookies.get('skein_theme'));
-	return resolve(event, { transformPageChunk: ({ html }) => html.replace('%skein.theme%', chosen) });
+	// read when rendering, so a theme chosen by this very request already applies
+	return resolve(event, {
+		transformPageChunk: ({ html }) => html.replace('%skein.theme%', themeOf(event.cookies.get('skein_theme')))
+	});
 };
