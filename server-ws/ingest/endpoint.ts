@@ -68,7 +68,8 @@ export class IngestEndpoint {
 			pubsub: options.pubsub ?? sharedPubSub(),
 			limits: this.limits,
 			timing: this.timing,
-			onError: options.onError ?? ((error, context) => console.error(`[ingest] ${context}:`, error)),
+			onError:
+				options.onError ?? ((error, context) => console.error(`[ingest] ${context}:`, error)),
 			runs: new Map<string, RunChannel>()
 		};
 		// Messages up to twice the limit are read so the rig gets a too_large error before the 1009;
@@ -145,7 +146,9 @@ export class IngestEndpoint {
 			})
 		};
 		this.#connections.add(conn);
-		ws.on('message', (data: RawData, isBinary: boolean) => conn.session.receive(toBytes(data), isBinary));
+		ws.on('message', (data: RawData, isBinary: boolean) =>
+			conn.session.receive(toBytes(data), isBinary)
+		);
 		ws.on('pong', () => {
 			conn.alive = true;
 		});
@@ -154,7 +157,9 @@ export class IngestEndpoint {
 			this.#connections.delete(conn);
 			conn.session.disconnected();
 		});
-		this.#store.touchKey(rig.keyId).catch((error: unknown) => this.#ctx.onError(error, 'touchKey failed'));
+		this.#store
+			.touchKey(rig.keyId)
+			.catch((error: unknown) => this.#ctx.onError(error, 'touchKey failed'));
 	}
 
 	#ping(): void {
@@ -188,7 +193,8 @@ export class IngestEndpoint {
 		this.#closed = true;
 		clearInterval(this.#pingTimer);
 		liveEndpoints().delete(this);
-		for (const conn of this.#connections) conn.session.end(CloseCode.goingAway, 'server shutting down');
+		for (const conn of this.#connections)
+			conn.session.end(CloseCode.goingAway, 'server shutting down');
 		await Promise.all([...this.#ctx.runs.values()].map((ch) => ch.expire()));
 		this.#ctx.runs.clear();
 		this.#wss.close();

@@ -144,7 +144,12 @@ export class RunChannel {
 	#publishCommitted(frames: FrameToStore[], quarantined: QuarantinedToStore[]): void {
 		const { pubsub } = this.#deps;
 		for (const q of quarantined) {
-			pubsub.publish(this.runId, { kind: 'quarantined', runId: this.runId, seq: q.seq, reason: q.reason });
+			pubsub.publish(this.runId, {
+				kind: 'quarantined',
+				runId: this.runId,
+				seq: q.seq,
+				reason: q.reason
+			});
 		}
 		for (const f of frames) {
 			const frame: Frame = f.frame;
@@ -204,7 +209,8 @@ export class RunChannel {
 		if (this.listener !== null || this.state !== 'live') return;
 		await this.setState('interrupted').catch(() => {});
 		// A rig may have resumed (and dropped again) while the state was being written.
-		if (this.listener === null && this.#graceTimer === null && this.#unclaimed()) this.#onExpired(this);
+		if (this.listener === null && this.#graceTimer === null && this.#unclaimed())
+			this.#onExpired(this);
 	}
 
 	#unclaimed(): boolean {
@@ -212,7 +218,10 @@ export class RunChannel {
 	}
 
 	static sameFields(a: RunSpec, b: RunSpec): boolean {
-		return sameList(a.state_fields, b.state_fields) && sameList(a.measurement_fields, b.measurement_fields);
+		return (
+			sameList(a.state_fields, b.state_fields) &&
+			sameList(a.measurement_fields, b.measurement_fields)
+		);
 	}
 }
 

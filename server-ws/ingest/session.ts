@@ -2,8 +2,18 @@
  * One ingest connection: decode → validate → sequence rules → batch into the run's channel → ack.
  * Knows nothing about sockets beyond {@link SessionTransport}, so it can be driven directly.
  */
-import { decodeMessage, encodeMessage, storedFrameBytes, type Decoded } from '../../src/lib/protocol/codec';
-import { CloseCode, type Encoding, type ErrorCode, type ServerMessage } from '../../src/lib/protocol/types';
+import {
+	decodeMessage,
+	encodeMessage,
+	storedFrameBytes,
+	type Decoded
+} from '../../src/lib/protocol/codec';
+import {
+	CloseCode,
+	type Encoding,
+	type ErrorCode,
+	type ServerMessage
+} from '../../src/lib/protocol/types';
 import { formatIssue, readSeq, validateFrame, validateOpen } from '../../src/lib/protocol/validate';
 import { RunChannel, type ChannelDeps, type ChannelListener } from './run-channel';
 import type { RigRef } from './store';
@@ -79,7 +89,8 @@ export class IngestSession implements ChannelListener {
 		const msg = d.msg;
 		const seq = readSeq(msg);
 		if (ch === null || this.#state !== 'open') {
-			const message = this.#state === 'closing' ? 'the run is closing' : 'send open and wait for opened first';
+			const message =
+				this.#state === 'closing' ? 'the run is closing' : 'send open and wait for opened first';
 			this.#sendError(d.encoding, 'not_open', message, seq ?? undefined);
 			return;
 		}
@@ -148,7 +159,11 @@ export class IngestSession implements ChannelListener {
 		const current = this.#channel;
 		if (this.#state === 'open' && current !== null) {
 			if (clientRunId === null || clientRunId !== this.#clientRunId) {
-				this.#sendError(d.encoding, 'invalid_open', 'a run is already open on this connection; close it first');
+				this.#sendError(
+					d.encoding,
+					'invalid_open',
+					'a run is already open on this connection; close it first'
+				);
 				return;
 			}
 			this.#state = 'opening';
@@ -177,7 +192,11 @@ export class IngestSession implements ChannelListener {
 		}
 		if (result.state === 'ended') {
 			this.#state = 'ready';
-			this.#sendError(d.encoding, 'invalid_open', 'this run has ended; open a new run with another client_run_id');
+			this.#sendError(
+				d.encoding,
+				'invalid_open',
+				'this run has ended; open a new run with another client_run_id'
+			);
 			return;
 		}
 		if (result.resumed && !RunChannel.sameFields(result.spec, spec)) {
@@ -300,7 +319,10 @@ export class IngestSession implements ChannelListener {
 	}
 
 	#sendError(encoding: Encoding, code: ErrorCode, message: string, seq?: number): void {
-		this.#send(encoding, seq === undefined ? { type: 'error', code, message } : { type: 'error', code, message, seq });
+		this.#send(
+			encoding,
+			seq === undefined ? { type: 'error', code, message } : { type: 'error', code, message, seq }
+		);
 	}
 
 	#send(encoding: Encoding, msg: ServerMessage): void {

@@ -76,7 +76,11 @@ export interface IngestStore {
 	 * Must be idempotent per (run, seq): a seq already stored is skipped, never duplicated.
 	 * Rejecting means nothing of the batch was stored.
 	 */
-	commitFrames(runId: string, frames: FrameToStore[], quarantined: QuarantinedToStore[]): Promise<void>;
+	commitFrames(
+		runId: string,
+		frames: FrameToStore[],
+		quarantined: QuarantinedToStore[]
+	): Promise<void>;
 
 	setRunState(runId: string, state: IngestRunState): Promise<void>;
 

@@ -84,7 +84,8 @@ function checkString(v: unknown, min: number, max: number): string | null {
 }
 
 function checkVector(v: unknown, len: number): Issue | null {
-	if (!Array.isArray(v)) return issue('', `expected an array of ${len} numbers, got ${describe(v)}`);
+	if (!Array.isArray(v))
+		return issue('', `expected an array of ${len} numbers, got ${describe(v)}`);
 	if (v.length !== len) return issue('', `length ${v.length}, expected ${len}`);
 	for (let i = 0; i < len; i++) {
 		const n: unknown = v[i];
@@ -124,7 +125,9 @@ function checkCovariance(v: unknown, dim: number, tol: number, name: string): Is
 function checkId(v: unknown, limits: IngestLimits): string | null {
 	if (typeof v === 'string') return checkString(v, 1, limits.maxIdLength);
 	if (typeof v === 'number') {
-		return Number.isSafeInteger(v) ? null : `expected a string or a safe integer, got ${describe(v)}`;
+		return Number.isSafeInteger(v)
+			? null
+			: `expected a string or a safe integer, got ${describe(v)}`;
 	}
 	return `expected a string or a safe integer, got ${describe(v)}`;
 }
@@ -192,8 +195,10 @@ function checkTruth(o: unknown, dim: number, limits: IngestLimits): Issue | null
 
 function checkEgo(ego: unknown): Issue | null {
 	if (!isMap(ego)) return issue('', `expected a map, got ${describe(ego)}`);
-	if (!isFiniteNumber(ego.x)) return issue('.x', ego.x === undefined ? 'missing' : expectedNumber(ego.x));
-	if (!isFiniteNumber(ego.y)) return issue('.y', ego.y === undefined ? 'missing' : expectedNumber(ego.y));
+	if (!isFiniteNumber(ego.x))
+		return issue('.x', ego.x === undefined ? 'missing' : expectedNumber(ego.x));
+	if (!isFiniteNumber(ego.y))
+		return issue('.y', ego.y === undefined ? 'missing' : expectedNumber(ego.y));
 	if (!isFiniteNumber(ego.heading)) {
 		return issue('.heading', ego.heading === undefined ? 'missing' : expectedNumber(ego.heading));
 	}
@@ -301,12 +306,15 @@ function checkRunSpec(run: unknown, limits: IngestLimits): Issue | null {
 		const units = run.units;
 		if (!isMap(units)) return issue('.units', `expected a map, got ${describe(units)}`);
 		if (units.length !== 'm') return issue('.units.length', 'expected "m"');
-		for (const k in units) if (k !== 'length') return issue(`.units.${fieldKey(k)}`, 'unknown field');
+		for (const k in units)
+			if (k !== 'length') return issue(`.units.${fieldKey(k)}`, 'unknown field');
 	}
 	if (run.tags !== undefined) {
 		const tags = run.tags;
-		if (!Array.isArray(tags)) return issue('.tags', `expected an array of strings, got ${describe(tags)}`);
-		if (tags.length > limits.maxTags) return issue('.tags', `${tags.length} tags, at most ${limits.maxTags}`);
+		if (!Array.isArray(tags))
+			return issue('.tags', `expected an array of strings, got ${describe(tags)}`);
+		if (tags.length > limits.maxTags)
+			return issue('.tags', `${tags.length} tags, at most ${limits.maxTags}`);
 		for (let i = 0; i < tags.length; i++) {
 			const s = checkString(tags[i], 1, limits.maxTagLength);
 			if (s !== null) return issue(`.tags[${i}]`, s);
@@ -347,12 +355,16 @@ export function validateOpen(
 	const run = checkRunSpec(msg.run, limits);
 	if (run !== null) return at('run', run);
 	for (const k in msg) {
-		if (k !== 'type' && k !== 'client_run_id' && k !== 'run') return fail(fieldKey(k), 'unknown field');
+		if (k !== 'type' && k !== 'client_run_id' && k !== 'run')
+			return fail(fieldKey(k), 'unknown field');
 	}
 	return { ok: true, value: msg as unknown as OpenMessage };
 }
 
 /** Dimensions a run's frames are validated against. */
-export function runDims(spec: { state_fields: readonly string[]; measurement_fields: readonly string[] }): RunDims {
+export function runDims(spec: {
+	state_fields: readonly string[];
+	measurement_fields: readonly string[];
+}): RunDims {
 	return { stateDim: spec.state_fields.length, measDim: spec.measurement_fields.length };
 }
