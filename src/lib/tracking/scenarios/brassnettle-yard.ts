@@ -120,7 +120,7 @@ const births: BirthRegion[] = [
 export const brassnettleYard: Scenario = {
   name: "brassnettle-yard",
   title: "Brassnettle Yard",
-  place: "Brassnettle Yard, the goods depot behind Wicket Row",
+  place: "Brassnettle Yard, the goods depot behind Cindervane Row",
   description:
     "A depot yard at walking pace. The ego tug loops between the loading bays while staff walk in and out of two doors, vans sit in the bays and now and then pull out, and lorries come in through the gate to unload.",
   dt: 0.05,

@@ -84,7 +84,7 @@ const spawns: SpawnSource[] = [
 export const glassmereReach: Scenario = {
   name: "glassmere-reach",
   title: "Glassmere Reach",
-  place: "Glassmere Reach, eastbound carriageway past the Tolley Fen on-ramp",
+  place: "Glassmere Reach, eastbound carriageway past the Tallowfen on-ramp",
   description:
     "Three lanes eastbound at 24 m/s behind a forward radar. Slower lorries and cars are caught up and passed, on-ramp traffic merges into the slow lane, and faster cars overtake on the left, some cutting in ahead of the ego.",
   dt: 0.05,

@@ -82,7 +82,7 @@ const births: BirthRegion[] = ARMS.map((arm) => {
 export const lanternfallCrossing: Scenario = {
   name: "lanternfall-crossing",
   title: "Lanternfall Crossing",
-  place: "Lanternfall, Orrery Street at Kettle Lane",
+  place: "Lanternfall, Orrery Street at Quillmarsh Lane",
   description:
     "A four-way junction without signals. The ego shuttles north and south through it, waiting at the stop line, while cars and vans arrive on all four arms and turn left across its path.",
   dt: 0.05,
