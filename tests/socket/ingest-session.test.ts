@@ -1,5 +1,6 @@
 import { Packr } from 'msgpackr';
 import { afterEach, describe, expect, it } from 'vitest';
+import WebSocket from 'ws';
 import { closeSocketsForKey } from '../../server-ws/ingest/endpoint';
 import type { RunEvent } from '../../server-ws/pubsub';
 import { SkeinAuthError, SkeinRigClient, type RigClientEvent } from '../../src/lib/protocol/client';
@@ -289,18 +290,21 @@ describe('limits beyond the protocol messages', () => {
 		expect((await c.closed).code).toBe(1009);
 	});
 
-	it('rate-limits frames more than a window ahead of the last ack', async () => {
-		const s = await serve({ timing: { window: 64 } });
-		s.store.commitDelayMs = 300;
-		const { c, runId } = await opened(s, 'msgpack');
-		for (let seq = 0; seq <= 64; seq++) c.send(frameMsg(seq), 'msgpack');
-		const err = await c.nextOfType('error');
-		expect(err.msg).toMatchObject({ code: 'rate_limited', seq: 64 });
-		await c.nextAck(63, 5000);
-		c.send(frameMsg(64), 'msgpack');
-		await c.nextAck(64, 5000);
-		expect(s.store.seqs(runId)).toHaveLength(65);
-	});
+	it.each(['msgpack', 'json'] as const)(
+		'rate-limits frames more than a window ahead of the last ack (%s)',
+		async (encoding) => {
+			const s = await serve({ timing: { window: 64 } });
+			s.store.commitDelayMs = 300;
+			const { c, runId } = await opened(s, encoding);
+			for (let seq = 0; seq <= 64; seq++) c.send(frameMsg(seq), encoding);
+			const err = await c.nextOfType('error');
+			expect(err.msg).toMatchObject({ code: 'rate_limited', seq: 64 });
+			await c.nextAck(63, 5000);
+			c.send(frameMsg(64), encoding);
+			await c.nextAck(64, 5000);
+			expect(s.store.seqs(runId)).toHaveLength(65);
+		}
+	);
 
 	it('acks at least every 250 ms while frames wait for a slow commit', async () => {
 		const s = await serve();
@@ -318,6 +322,22 @@ describe('limits beyond the protocol messages', () => {
 });
 
 describe('drops, grace period and resume', () => {
+	it('cuts a connection that stops answering pings and starts the grace period', async () => {
+		const s = await serve({ timing: { pingIntervalMs: 50, graceMs: 10_000 } });
+		const ws = new WebSocket(s.url, {
+			headers: { Authorization: `Bearer ${KEY}` },
+			autoPong: false
+		});
+		const c = new RawClient(ws);
+		await new Promise((resolve) => ws.once('open', resolve));
+		c.send(openMsg('silent'), 'json');
+		const runId = (await c.nextOfType('opened')).msg.run_id as string;
+		expect((await c.closed).code).toBe(1006);
+		await until(() => s.endpoint.connections === 0, 1000, 'server-side close');
+		expect(s.endpoint.runs.get(runId)?.listener).toBeNull();
+		expect(s.store.run(runId).state).toBe('live');
+	});
+
 	it('keeps a dropped run live for the grace period, then interrupted, and resumes it later', async () => {
 		const s = await serve();
 		const { c, runId } = await opened(s, 'msgpack', 'grace-1');
