@@ -1,10 +1,69 @@
 import type { Server } from 'node:http';
+import { sqlClient } from '../src/lib/server/db';
+import { PostgresIngestStore } from '../src/lib/server/ingest/store';
+import { applyRetention, createPartitionsAhead } from '../src/lib/server/ingest/partitions';
+import { logger } from '../src/lib/server/log';
+import { closeSocketsForKey, createIngestEndpoint } from './ingest/endpoint';
 
 export interface AttachedSockets {
 	close(): Promise<void>;
 }
 
-/** Attaches Skein's socket endpoints (ingest, live) to an HTTP server. */
-export function attachSockets(_server: Server): AttachedSockets {
-	return { close: async () => {} };
+/** Revocations are announced on this PostgreSQL channel, so every app process closes the key's sockets. */
+export const keyRevokedChannel = 'skein_feed_key_revoked';
+
+const hourMs = 3_600_000;
+
+/** Attaches Skein's socket endpoints (ingest; live comes with the viewer) to an HTTP server. */
+export function attachSockets(server: Server): AttachedSockets {
+	const sql = sqlClient();
+	const ingest = createIngestEndpoint({
+		store: new PostgresIngestStore(sql),
+		limits: {
+			maxMessageBytes: Number(process.env.INGEST_MAX_MESSAGE_BYTES ?? 1024 * 1024)
+		},
+		timing: {
+			graceMs: Number(process.env.INGEST_GRACE_SECONDS ?? 30) * 1000
+		},
+		onError: (err, context) => logger.error({ err, context }, 'ingest error')
+	});
+
+	server.on('upgrade', (req, socket, head) => {
+		if (ingest.handleUpgrade(req, socket, head)) return;
+		// not ours: in dev, Vite's own HMR socket handles its path; elsewhere nobody does
+		if (!(req.url ?? '').startsWith('/@') && server.listenerCount('upgrade') === 1) socket.destroy();
+	});
+
+	const listening = sql.listen(keyRevokedChannel, (keyId) => {
+		const n = closeSocketsForKey(keyId);
+		if (n) logger.info({ keyId, closed: n }, 'feed key revoked: sockets closed');
+	});
+
+	const graceMs = Number(process.env.INGEST_GRACE_SECONDS ?? 30) * 1000;
+	// runs left live by a previous process (crash, restart) become interrupted once their grace has passed
+	const sweep = async () => {
+		const mine = [...ingest.runs.keys()];
+		await sql`update runs set status = 'interrupted', ended_at = coalesce(ended_at, now())
+			where status = 'live' and coalesce(last_seen_at, started_at) < now() - ${graceMs / 1000} * interval '1 second'
+			and not (id = any(${mine}::uuid[]))`;
+	};
+	const maintain = async () => {
+		await createPartitionsAhead(sql);
+		const days = Number(process.env.RETENTION_DAYS ?? 0);
+		if (days > 0) await applyRetention(sql, days);
+	};
+	const timers = [
+		setTimeout(() => void sweep().catch((err) => logger.error({ err }, 'run sweep failed')), graceMs + 1000),
+		setInterval(() => void maintain().catch((err) => logger.error({ err }, 'maintenance failed')), hourMs)
+	];
+	for (const t of timers) t.unref();
+	void maintain().catch((err) => logger.error({ err }, 'maintenance failed'));
+
+	return {
+		async close() {
+			for (const t of timers) clearTimeout(t);
+			await ingest.close();
+			await (await listening).unlisten();
+		}
+	};
 }

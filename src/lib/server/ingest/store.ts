@@ -1,0 +1,202 @@
+/**
+ * The PostgreSQL side of ingest: what server-ws/ingest needs from storage (its IngestStore contract).
+ * One transaction per batch: frames (with their per-frame metrics), quarantined messages and the
+ * run's counters commit together, so an ack never runs ahead of what is durable.
+ */
+import type postgres from 'postgres';
+import { frameMetrics, defaultMetricSettings, type MetricSettings } from '$lib/metrics';
+import type { IngestRunState, RunSpec } from '$lib/protocol/types';
+import type {
+	FrameToStore,
+	IngestStore,
+	KeyResolution,
+	OpenRunRequest,
+	OpenRunResult,
+	QuarantinedToStore
+} from '../../../../server-ws/ingest/store';
+import { hashSecret } from '$server/auth/tokens';
+import { sqlClient } from '$server/db';
+import { ensurePartitionsFor } from './partitions';
+
+interface RunContext {
+	stateFields: string[];
+	coords: 'world' | 'ego';
+	settings: MetricSettings;
+	keyId: string | null;
+}
+
+interface RunRow {
+	id: string;
+	name: string;
+	state_fields: string[];
+	measurement_fields: string[];
+	coords: 'world' | 'ego';
+	length_unit: string;
+	tags: string[];
+	notes: string;
+	status: IngestRunState | 'imported';
+	next_seq: string | number;
+	frame_count: string | number;
+	last_t: number | null;
+	metric_settings: MetricSettings | null;
+}
+
+function specOf(row: RunRow): RunSpec {
+	return {
+		name: row.name,
+		state_fields: row.state_fields,
+		measurement_fields: row.measurement_fields,
+		coords: row.coords,
+		units: { length: 'm' },
+		tags: row.tags,
+		notes: row.notes
+	};
+}
+
+export class PostgresIngestStore implements IngestStore {
+	#sql: postgres.Sql;
+	#runs = new Map<string, RunContext>();
+
+	constructor(sql: postgres.Sql = sqlClient()) {
+		this.#sql = sql;
+	}
+
+	async resolveKey(key: string): Promise<KeyResolution> {
+		const rows = await this.#sql<
+			{ id: string; rig_id: string; revoked_at: Date | null; expires_at: Date | null; archived_at: Date | null }[]
+		>`select k.id, k.rig_id, k.revoked_at, k.expires_at, r.archived_at
+		  from feed_keys k join rigs r on r.id = k.rig_id where k.key_hash = ${hashSecret(key)}`;
+		const k = rows[0];
+		if (!k) return { ok: false, reason: 'unknown feed key' };
+		if (k.revoked_at) return { ok: false, reason: 'feed key revoked' };
+		if (k.expires_at && k.expires_at.getTime() <= Date.now()) return { ok: false, reason: 'feed key expired' };
+		if (k.archived_at) return { ok: false, reason: 'rig archived' };
+		return { ok: true, rig: { rigId: k.rig_id, keyId: k.id } };
+	}
+
+	async openRun(req: OpenRunRequest): Promise<OpenRunResult> {
+		const { spec } = req;
+		let row: RunRow | undefined;
+		let resumed = false;
+		if (req.clientRunId !== null) {
+			[row] = await this.#sql<RunRow[]>`select * from runs where rig_id = ${req.rig.rigId} and client_run_id = ${req.clientRunId}`;
+			resumed = row !== undefined;
+		}
+		if (!row) {
+			const inserted = await this.#sql<RunRow[]>`
+				insert into runs (rig_id, client_run_id, name, state_fields, measurement_fields, coords, length_unit, tags, notes, status, metric_settings)
+				values (${req.rig.rigId}, ${req.clientRunId}, ${spec.name}, ${spec.state_fields}, ${spec.measurement_fields},
+				        ${spec.coords ?? 'world'}, ${spec.units?.length ?? 'm'}, ${spec.tags ?? []}, ${spec.notes ?? ''}, 'live',
+				        ${this.#sql.json(defaultMetricSettings as unknown as postgres.JSONValue)})
+				on conflict (rig_id, client_run_id) do nothing
+				returning *`;
+			row = inserted[0];
+			if (!row) {
+				// opened concurrently by another connection of the same rig
+				[row] = await this.#sql<RunRow[]>`select * from runs where rig_id = ${req.rig.rigId} and client_run_id = ${req.clientRunId}`;
+				resumed = true;
+			}
+		}
+		if (row.status === 'imported') return { ok: false, reason: 'this run was imported and cannot be streamed to' };
+		this.#runs.set(row.id, {
+			stateFields: row.state_fields,
+			coords: row.coords,
+			settings: row.metric_settings ?? defaultMetricSettings,
+			keyId: req.rig.keyId
+		});
+		return {
+			ok: true,
+			runId: row.id,
+			resumed,
+			spec: specOf(row),
+			nextSeq: Number(row.next_seq),
+			lastT: row.last_t,
+			frames: Number(row.frame_count),
+			state: row.status
+		};
+	}
+
+	async #context(runId: string): Promise<RunContext> {
+		let ctx = this.#runs.get(runId);
+		if (!ctx) {
+			const [row] = await this.#sql<RunRow[]>`select * from runs where id = ${runId}`;
+			ctx = { stateFields: row.state_fields, coords: row.coords, settings: row.metric_settings ?? defaultMetricSettings, keyId: null };
+			this.#runs.set(runId, ctx);
+		}
+		return ctx;
+	}
+
+	async commitFrames(runId: string, frames: FrameToStore[], quarantined: QuarantinedToStore[]): Promise<void> {
+		if (frames.length === 0 && quarantined.length === 0) return;
+		const ctx = await this.#context(runId);
+		const rows = frames.map((f) => frameRow(runId, f, ctx));
+		await ensurePartitionsFor(this.#sql, frames.map((f) => f.t));
+		let maxSeq = -1;
+		for (const f of frames) maxSeq = Math.max(maxSeq, f.seq);
+		for (const q of quarantined) maxSeq = Math.max(maxSeq, q.seq);
+		const lastT = frames.length ? frames[frames.length - 1].t : null;
+		const firstT = frames.length ? frames[0].t : null;
+
+		await this.#sql.begin(async (tx) => {
+			let stored = 0;
+			if (rows.length) {
+				const res = await tx`insert into frames ${tx(rows)} on conflict do nothing`;
+				stored = res.count;
+			}
+			if (quarantined.length) {
+				await tx`insert into quarantine ${tx(
+					quarantined.map((q) => ({ run_id: runId, seq: q.seq, reason: q.reason, raw: Buffer.from(q.raw.buffer, q.raw.byteOffset, q.raw.byteLength) }))
+				)}`;
+			}
+			await tx`
+				update runs set
+					next_seq = greatest(next_seq, ${maxSeq + 1}),
+					frame_count = frame_count + ${stored},
+					quarantine_count = quarantine_count + ${quarantined.length},
+					first_t = coalesce(first_t, ${firstT}),
+					last_t = coalesce(${lastT}, last_t),
+					last_seen_at = now()
+				where id = ${runId}`;
+			if (ctx.keyId && stored) {
+				await tx`update feed_keys set frames_received = frames_received + ${stored} where id = ${ctx.keyId}`;
+			}
+		});
+	}
+
+	async setRunState(runId: string, state: IngestRunState): Promise<void> {
+		if (state === 'live') {
+			await this.#sql`update runs set status = 'live', ended_at = null, last_seen_at = now() where id = ${runId}`;
+		} else {
+			await this.#sql`update runs set status = ${state}, ended_at = coalesce(ended_at, now()) where id = ${runId} and status <> 'imported'`;
+			if (state === 'ended') this.#runs.delete(runId);
+		}
+	}
+
+	async touchKey(keyId: string, address?: string): Promise<void> {
+		await this.#sql`update feed_keys set last_used_at = now(), last_used_ip = coalesce(${address ?? null}, last_used_ip) where id = ${keyId}`;
+	}
+}
+
+type FrameRow = Record<string, string | number | Buffer | Date | null | postgres.JSONValue>;
+
+function frameRow(runId: string, f: FrameToStore, ctx: RunContext): FrameRow {
+	const m = frameMetrics(f.frame, { stateFields: ctx.stateFields, settings: ctx.settings, coords: ctx.coords });
+	return {
+		run_id: runId,
+		seq: f.seq,
+		t: f.t,
+		ts: new Date(f.t * 1000),
+		data: Buffer.from(f.raw.buffer, f.raw.byteOffset, f.raw.byteLength),
+		n_measurements: m.n_measurements,
+		n_estimates: m.n_estimates,
+		n_truth: m.n_truth,
+		expected_cardinality: m.expected_cardinality,
+		gospa: m.gospa,
+		gospa_localization: m.gospa_localization,
+		gospa_missed: m.gospa_missed,
+		gospa_false: m.gospa_false,
+		ospa: m.ospa,
+		nees_mean: m.nees_mean,
+		zones: Object.keys(m.zones).length ? (m.zones as postgres.JSONValue) : null
+	};
+}
