@@ -32,6 +32,7 @@ export const routeRules: Record<string, RouteRule> = {
 	'/(app)/live': { read: 'runs:read' },
 	'/(app)/pins': { read: 'pins:read' },
 	'/(app)/rigs': { read: 'rigs:read', write: 'rigs:manage' },
+	'/(app)/rigs/[id=id]': { read: 'rigs:read', write: 'rigs:manage' },
 	'/(app)/people': {
 		read: 'people:read',
 		write: { invite: 'people:manage', role: 'people:manage', active: 'people:manage', revokeInvite: 'people:manage' }
@@ -48,8 +49,18 @@ export const routeRules: Record<string, RouteRule> = {
 	'/api/people/[id=id]': { read: 'people:read', write: 'people:manage' },
 	'/api/tokens': { read: 'signed-in', write: 'signed-in' },
 	'/api/tokens/[id=id]': { read: 'signed-in', write: 'signed-in' },
+	'/api/rigs': { read: 'rigs:read', write: 'rigs:manage' },
+	'/api/rigs/[id=id]': { read: 'rigs:read', write: 'rigs:manage' },
+	'/api/rigs/[id=id]/keys': { read: 'rigs:read', write: 'rigs:manage' },
+	'/api/keys/[id=id]': { read: 'rigs:read', write: 'rigs:manage' },
+	'/api/keys/[id=id]/revoke': { read: 'rigs:read', write: 'rigs:manage' },
+	'/api/keys/[id=id]/rotate': { read: 'rigs:read', write: 'rigs:manage' },
 	'/api/audit': { read: 'audit:read' },
-	'/api/dev/mail': { read: 'mail:dev' }
+	'/api/dev/mail': { read: 'mail:dev' },
+	'/api/runs': { read: 'runs:read' },
+	'/api/runs/[id=id]': { read: 'runs:read' },
+	'/api/runs/[id=id]/frames': { read: 'runs:read' },
+	'/api/runs/[id=id]/quarantine': { read: 'runs:read' }
 };
 
 export function ruleFor(routeId: string, method: string, search: URLSearchParams): Rule | undefined {
