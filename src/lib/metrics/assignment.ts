@@ -48,15 +48,28 @@ export function solveAssignment(cost: ArrayLike<number>, rows: number, cols: num
 	} else {
 		c = Float64Array.from({ length: nr * nc }, (_, k) => cost[k]);
 	}
+	let max = -Infinity;
+	let bad = false;
 	for (let k = 0; k < c.length; k++) {
 		const x = c[k];
 		// NaN fails every comparison, so only an explicit check catches it.
-		if (x !== x || x === -Infinity) throw new RangeError('cost matrix holds NaN or -Infinity');
+		if (x !== x || x === -Infinity) bad = true;
+		if (x > max) max = x;
 	}
+	if (bad) throw new RangeError('cost matrix holds NaN or -Infinity');
+	// How much of the matrix sits at its maximum, judged on the first rows (a sample keeps this
+	// pass cheap; cut-off matrices are uniform in this respect).
+	const sampleRows = Math.min(nr, 8);
+	let atMax = 0;
+	for (let k = 0; k < sampleRows * nc; k++) if (c[k] === max) atMax++;
+	const plateau = atMax > (sampleRows * nc) / 4;
 
 	const col4row = new Int32Array(nr);
 	const row4col = new Int32Array(nc);
-	if (nr === nc) solveSquare(c, nr, col4row, row4col);
+	// Column reduction suits dense costs, but on a cut-off matrix (most entries equal to the
+	// cut-off, as GOSPA builds) it prices every far column at the plateau and the augmenting
+	// paths then wander across it; row reduction, as in solveWide, avoids that (measured faster).
+	if (nr === nc && !plateau) solveSquare(c, nr, col4row, row4col);
 	else solveWide(c, nr, nc, col4row, row4col);
 
 	let total = 0;
@@ -101,8 +114,18 @@ function solveSquare(c: Float64Array, n: number, rowsol: Int32Array, colsol: Int
 	}
 	for (let j = n - 1; j >= 0; j--) {
 		const min = colMin[j];
-		const imin = colArg[j];
+		let imin = colArg[j];
 		if (min === Infinity) throw new InfeasibleAssignmentError();
+		// Cut-off cost matrices have whole plateaus of equal minima: a tied row that is still
+		// unmatched takes the column, which leaves far fewer rows to augment later.
+		if (matches[imin] > 0) {
+			for (let i = imin + 1; i < n; i++) {
+				if (matches[i] === 0 && c[i * n + j] === min) {
+					imin = i;
+					break;
+				}
+			}
+		}
 		v[j] = min;
 		if (++matches[imin] === 1) {
 			rowsol[imin] = j;

@@ -103,25 +103,38 @@ export function gospaFromSquaredDistances(
 		if (!(s >= 0)) throw new RangeError('squared distances must be ≥ 0 and not NaN');
 		cost[k] = s < c2 ? powHalf(s, half) : cp;
 	}
-	const a = solveAssignment(cost, m, n);
 
 	const truthToEstimate = new Int32Array(m).fill(-1);
 	const estimateToTruth = new Int32Array(n).fill(-1);
-	const pairs: [number, number][] = [];
-	let localization = 0;
-	let farPairs = 0;
-	for (let i = 0; i < m; i++) {
-		const j = a.rowToCol[i];
-		if (j < 0) continue;
-		if (d2[i * n + j] < c2) {
-			truthToEstimate[i] = j;
-			estimateToTruth[j] = i;
-			pairs.push([i, j]);
-			localization += cost[i * n + j];
-		} else {
-			farPairs++;
+	for (const [truthIdx, estIdx] of components(d2, m, n, c2)) {
+		if (truthIdx.length === 1 && estIdx.length === 1) {
+			truthToEstimate[truthIdx[0]] = estIdx[0];
+			continue;
+		}
+		const rows = truthIdx.length;
+		const cols = estIdx.length;
+		const sub = new Float64Array(rows * cols);
+		for (let a = 0; a < rows; a++) {
+			const base = truthIdx[a] * n;
+			for (let b = 0; b < cols; b++) sub[a * cols + b] = cost[base + estIdx[b]];
+		}
+		const sol = solveAssignment(sub, rows, cols);
+		for (let a = 0; a < rows; a++) {
+			const b = sol.rowToCol[a];
+			if (b >= 0 && d2[truthIdx[a] * n + estIdx[b]] < c2) truthToEstimate[truthIdx[a]] = estIdx[b];
 		}
 	}
+	const pairs: [number, number][] = [];
+	let localization = 0;
+	for (let i = 0; i < m; i++) {
+		const j = truthToEstimate[i];
+		if (j < 0) continue;
+		estimateToTruth[j] = i;
+		pairs.push([i, j]);
+		localization += cost[i * n + j];
+	}
+	// The optimal full assignment of min(m, n) pairs adds cut-off pairs to these (OSPA counts them).
+	const farPairs = Math.min(m, n) - pairs.length;
 	const missed = m - pairs.length;
 	const falseCount = n - pairs.length;
 	const gospaP = localization + (cp / 2) * (missed + falseCount);
@@ -149,6 +162,45 @@ export function gospaFromSquaredDistances(
 		estimateToTruth,
 		ospa
 	};
+}
+
+/**
+ * Connected components of the graph whose edges are the pairs closer than c, keeping those with
+ * both truth and estimates. No pair across components can be assigned below the cut-off, so each
+ * component is an assignment problem of its own, and in traffic scenes most are 1×1.
+ */
+function components(
+	d2: ArrayLike<number>,
+	m: number,
+	n: number,
+	c2: number
+): [number[], number[]][] {
+	const parent = new Int32Array(m + n);
+	for (let k = 0; k < m + n; k++) parent[k] = k;
+	const find = (k: number): number => {
+		while (parent[k] !== k) {
+			parent[k] = parent[parent[k]];
+			k = parent[k];
+		}
+		return k;
+	};
+	for (let i = 0; i < m; i++) {
+		for (let j = 0; j < n; j++) {
+			if (!(d2[i * n + j] < c2)) continue;
+			const a = find(i);
+			const b = find(m + j);
+			if (a !== b) parent[a] = b;
+		}
+	}
+	const groups = new Map<number, [number[], number[]]>();
+	for (let k = 0; k < m + n; k++) {
+		const root = find(k);
+		let g = groups.get(root);
+		if (!g) groups.set(root, (g = [[], []]));
+		if (k < m) g[0].push(k);
+		else g[1].push(k - m);
+	}
+	return [...groups.values()].filter(([t, e]) => t.length > 0 && e.length > 0);
 }
 
 function powHalf(s: number, half: number): number {
