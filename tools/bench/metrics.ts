@@ -10,19 +10,10 @@ import { solveAssignment } from '../../src/lib/metrics/assignment';
 import { gospa, type Point } from '../../src/lib/metrics/gospa';
 import { defaultMetricSettings } from '../../src/lib/metrics/settings';
 import { RunSummaryAccumulator } from '../../src/lib/metrics/summary';
+import { normalSource, seededRandom } from '../../src/lib/metrics/random';
 
-function seededRandom(seed: number): () => number {
-	let a = seed >>> 0;
-	return () => {
-		a = (a + 0x6d2b79f5) >>> 0;
-		let t = a;
-		t = Math.imul(t ^ (t >>> 15), t | 1);
-		t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-		return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-	};
-}
 const rand = seededRandom(2026);
-const gauss = () => Math.sqrt(-2 * Math.log(1 - rand())) * Math.cos(2 * Math.PI * rand());
+const gauss = normalSource(rand);
 
 const C = defaultMetricSettings.c;
 const P = defaultMetricSettings.p;

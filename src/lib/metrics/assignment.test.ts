@@ -2,7 +2,8 @@ import { describe, expect, it } from 'vitest';
 import munkres from 'munkres';
 import { linearSumAssignment } from 'linear-sum-assignment';
 import { InfeasibleAssignmentError, solveAssignment } from './assignment';
-import { bruteForceAssignmentCost, seededRandom } from './test-support';
+import { bruteForceAssignmentCost } from './test-support';
+import { seededRandom } from './random';
 
 function randomMatrix(rand: () => number, rows: number, cols: number, scale = 100): Float64Array {
 	const m = new Float64Array(rows * cols);

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { nees, neesBounds, neesVerdict, subBlock } from './consistency';
-import { normalSource, seededRandom } from './test-support';
+import { normalSource, seededRandom } from './random';
 
 describe('nees', () => {
 	it('computes eᵀ P⁻¹ e by hand', () => {

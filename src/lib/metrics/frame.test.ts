@@ -4,7 +4,7 @@ import { evaluateFrame, frameMetrics, type FrameContext } from './frame';
 import { gospa } from './gospa';
 import { defaultMetricSettings, parseMetricSettings } from './settings';
 import { RunSummaryAccumulator } from './summary';
-import { normalSource, seededRandom } from './test-support';
+import { normalSource, seededRandom } from './random';
 
 const stateFields = ['x', 'vx', 'y', 'vy'];
 const ctx: FrameContext = { stateFields, settings: defaultMetricSettings, coords: 'ego' };

@@ -2,7 +2,8 @@ import { describe, expect, it } from 'vitest';
 import munkres from 'munkres';
 import { linearSumAssignment } from 'linear-sum-assignment';
 import { gospa, ospa, type Point } from './gospa';
-import { bruteForceAssignmentCost, seededRandom } from './test-support';
+import { bruteForceAssignmentCost } from './test-support';
+import { seededRandom } from './random';
 import published from './fixtures/gospa-published-example.json';
 
 const dist = (a: Point, b: Point) => Math.hypot(a[0] - b[0], a[1] - b[1]);

@@ -13,7 +13,7 @@ import {
 	type PlanarObject,
 	type Zone
 } from './zones';
-import { normalSource, seededRandom } from './test-support';
+import { normalSource, seededRandom } from './random';
 
 /** P(X > h, Y > k) = ∫_h^∞ φ(x) Φ((ρx − k)/√(1−ρ²)) dx by composite Simpson on [h, 10] (a separate route). */
 function upperByQuadrature(h: number, k: number, rho: number): number {

@@ -1,0 +1,22 @@
+/** Seeded random numbers for reproducible tests and benchmarks (not part of the public API). */
+
+/** mulberry32: a small seeded PRNG so randomised tests are reproducible. */
+export function seededRandom(seed: number): () => number {
+	let a = seed >>> 0;
+	return () => {
+		a = (a + 0x6d2b79f5) >>> 0;
+		let t = a;
+		t = Math.imul(t ^ (t >>> 15), t | 1);
+		t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
+		return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+	};
+}
+
+/** Standard normal draws by Box–Muller from a uniform source. */
+export function normalSource(uniform: () => number): () => number {
+	return () => {
+		const u = 1 - uniform();
+		const v = uniform();
+		return Math.sqrt(-2 * Math.log(u)) * Math.cos(2 * Math.PI * v);
+	};
+}
