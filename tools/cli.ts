@@ -8,6 +8,8 @@ import { addPersonSchema, emailField, fieldErrors, roleField, tokenNameSchema } 
 import { systemActor, type Actor } from '../src/lib/server/auth/audit';
 import { closeDb } from '../src/lib/server/db';
 import { createApiToken, createUser, findUserByEmail, listPeople, PeopleError, setRole } from '../src/lib/server/people';
+import { expiresField, keyLabelField, rigNameField, uuidField } from '../src/lib/validation/rigs';
+import { createFeedKey, createRig, findFeedKeysByPrefix, findRigByName, getFeedKey, listAllFeedKeys, revokeFeedKey, RigsError } from '../src/lib/server/rigs';
 import { demoCluster, startCluster, ensureDatabase } from './lib/pg';
 import { applyMigrations } from '../src/lib/server/db/migrate';
 
@@ -17,7 +19,11 @@ const usage = `usage: npm run cli -- <command>
   people add --email E --role R [--name N] [--password P]
   people list
   people set-role --email E --role R
-  tokens create --email E --name N     (prints the new token alone on the last line)`;
+  tokens create --email E --name N     (prints the new token alone on the last line)
+  keys create --rig NAME [--label L] [--expires ISO]
+                                       (makes the rig if it is new; prints the feed key alone on the last line)
+  keys list [--rig NAME]               (rig, key id, prefix, label, status, last used; tab-separated)
+  keys revoke --id KEYID | --prefix P`;
 
 const cliActor: Actor = { ...systemActor, label: 'cli' };
 
@@ -85,6 +91,42 @@ async function run(argv: string[]): Promise<void> {
 			console.log(t.token);
 			return;
 		}
+		case 'keys create': {
+			const f = flags(rest, { rig: { required: true }, label: {}, expires: {} });
+			const v = check(z.object({ rig: rigNameField, label: keyLabelField.optional(), expires: expiresField }), f);
+			const rig = (await findRigByName(v.rig)) ?? (await createRig(cliActor, { name: v.rig }));
+			const made = await createFeedKey(cliActor, rig.id, { label: v.label, expiresAt: v.expires });
+			console.log(`feed key ${made.key.id} for rig "${rig.name}"${v.expires ? `, expires ${v.expires.toISOString()}` : ''} (shown once):`);
+			console.log(made.secret);
+			return;
+		}
+		case 'keys list': {
+			const f = flags(rest, { rig: {} });
+			const rigName = f.rig === undefined ? undefined : check(z.object({ rig: rigNameField }), { rig: f.rig }).rig;
+			if (rigName !== undefined && !(await findRigByName(rigName))) throw new RigsError('not_found', `no rig named "${rigName}"`);
+			for (const k of await listAllFeedKeys(rigName)) {
+				const status = k.rigArchivedAt && (k.status === 'active' || k.status === 'expiring') ? `${k.status} (rig archived)` : k.status;
+				console.log([k.rigName, k.id, k.prefix, k.label, status, k.lastUsedAt?.toISOString() ?? 'never'].join('\t'));
+			}
+			return;
+		}
+		case 'keys revoke': {
+			const f = flags(rest, { id: {}, prefix: {} });
+			if ((f.id === undefined) === (f.prefix === undefined)) throw new UsageError('give exactly one of --id or --prefix');
+			let keyId: string;
+			if (f.id !== undefined) {
+				keyId = check(z.object({ id: uuidField }), { id: f.id }).id;
+				if (!(await getFeedKey(keyId))) throw new RigsError('not_found', `no feed key with id ${keyId}`);
+			} else {
+				const found = await findFeedKeysByPrefix(f.prefix!.replace(/(…|\.\.\.)$/, ''));
+				if (found.length === 0) throw new RigsError('not_found', `no feed key starts with ${f.prefix}`);
+				if (found.length > 1) throw new RigsError('conflict', `${found.length} feed keys start with ${f.prefix}; use --id`);
+				keyId = found[0].id;
+			}
+			const revoked = await revokeFeedKey(cliActor, keyId);
+			console.log(`revoked feed key ${revoked.id} (${revoked.prefix}…)`);
+			return;
+		}
 		default:
 			throw new UsageError(key ? `unknown command "${key}"` : 'no command given');
 	}
@@ -110,7 +152,7 @@ async function main() {
 			console.error(`error: ${err.message}\n\n${usage}`);
 			process.exit(2);
 		}
-		if (err instanceof PeopleError) {
+		if (err instanceof PeopleError || err instanceof RigsError) {
 			console.error(`error: ${err.message}`);
 			process.exit(1);
 		}
