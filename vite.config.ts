@@ -19,6 +19,16 @@ export default defineConfig({
 			{
 				extends: true,
 				test: {
+					name: 'socket',
+					include: ['tests/socket/**/*.test.ts'],
+					environment: 'node',
+					testTimeout: 60_000,
+					hookTimeout: 30_000
+				}
+			},
+			{
+				extends: true,
+				test: {
 					name: 'integration',
 					include: ['tests/integration/**/*.test.ts'],
 					environment: 'node',
