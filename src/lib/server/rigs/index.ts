@@ -59,18 +59,19 @@ async function notifyStopped(tx: Tx, keyIds: string[]) {
 
 // ---- rigs ----
 
-const lastKeyUse = sql<Date | null>`(select max(${k.lastUsedAt}) from ${k} where ${k.rigId} = ${r.id})`;
-const lastRunSeen = sql<Date | null>`(select max(coalesce(${schema.runs.lastSeenAt}, ${schema.runs.startedAt})) from ${schema.runs} where ${schema.runs.rigId} = ${r.id})`;
-
+// Written out by hand: in a one-table select Drizzle leaves column names unqualified, which inside these
+// subqueries would bind to feed_keys/runs instead of the outer rigs row.
 const rigColumns = {
 	id: r.id,
 	name: r.name,
 	description: r.description,
 	createdAt: r.createdAt,
 	archivedAt: r.archivedAt,
-	activeKeys: sql<number>`(select count(*)::int from ${k} where ${k.rigId} = ${r.id} and ${k.revokedAt} is null and (${k.expiresAt} is null or ${k.expiresAt} > now()))`,
-	totalKeys: sql<number>`(select count(*)::int from ${k} where ${k.rigId} = ${r.id})`,
-	lastActivityAt: sql<string | null>`greatest(${lastKeyUse}, ${lastRunSeen})`
+	activeKeys: sql<number>`(select count(*)::int from feed_keys fk where fk.rig_id = rigs.id and fk.revoked_at is null and (fk.expires_at is null or fk.expires_at > now()))`,
+	totalKeys: sql<number>`(select count(*)::int from feed_keys fk where fk.rig_id = rigs.id)`,
+	lastActivityAt: sql<string | null>`greatest(
+		(select max(fk.last_used_at) from feed_keys fk where fk.rig_id = rigs.id),
+		(select max(coalesce(ru.last_seen_at, ru.started_at)) from runs ru where ru.rig_id = rigs.id))`
 };
 
 export type RigView = Awaited<ReturnType<typeof listRigs>>[number];
