@@ -23,7 +23,12 @@ interface RunContext {
 	coords: 'world' | 'ego';
 	settings: MetricSettings;
 	keyId: string | null;
+	/** when settings were last read: they are re-read after SETTINGS_TTL_MS, so a settings save reaches live runs */
+	settingsReadAt: number;
 }
+
+/** How stale a live run's metric settings may get; the recompute job waits this long before it finishes. */
+export const SETTINGS_TTL_MS = 1000;
 
 interface RunRow {
 	id: string;
@@ -102,7 +107,8 @@ export class PostgresIngestStore implements IngestStore {
 			stateFields: row.state_fields,
 			coords: row.coords,
 			settings: row.metric_settings ?? defaultMetricSettings,
-			keyId: req.rig.keyId
+			keyId: req.rig.keyId,
+			settingsReadAt: Date.now()
 		});
 		return {
 			ok: true,
@@ -120,8 +126,12 @@ export class PostgresIngestStore implements IngestStore {
 		let ctx = this.#runs.get(runId);
 		if (!ctx) {
 			const [row] = await this.#sql<RunRow[]>`select * from runs where id = ${runId}`;
-			ctx = { stateFields: row.state_fields, coords: row.coords, settings: row.metric_settings ?? defaultMetricSettings, keyId: null };
+			ctx = { stateFields: row.state_fields, coords: row.coords, settings: row.metric_settings ?? defaultMetricSettings, keyId: null, settingsReadAt: Date.now() };
 			this.#runs.set(runId, ctx);
+		} else if (Date.now() - ctx.settingsReadAt > SETTINGS_TTL_MS) {
+			const [row] = await this.#sql<Pick<RunRow, 'metric_settings'>[]>`select metric_settings from runs where id = ${runId}`;
+			ctx.settings = row?.metric_settings ?? defaultMetricSettings;
+			ctx.settingsReadAt = Date.now();
 		}
 		return ctx;
 	}
@@ -197,6 +207,7 @@ function frameRow(runId: string, f: FrameToStore, ctx: RunContext): FrameRow {
 		gospa_false: m.gospa_false,
 		ospa: m.ospa,
 		nees_mean: m.nees_mean,
+		nees_count: m.nees_count,
 		zones: Object.keys(m.zones).length ? (m.zones as postgres.JSONValue) : null
 	};
 }

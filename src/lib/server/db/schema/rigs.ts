@@ -127,5 +127,6 @@ export const frameColumns = {
 	gospaFalse: integer('gospa_false'),
 	ospa: doublePrecision('ospa'),
 	neesMean: doublePrecision('nees_mean'),
+	neesCount: integer('nees_count'),
 	zones: jsonb('zones').$type<Record<string, number>>()
 };
