@@ -31,6 +31,7 @@ export const routeRules: Record<string, RouteRule> = {
 	'/(app)/runs': { read: 'runs:read' },
 	'/(app)/live': { read: 'runs:read' },
 	'/(app)/pins': { read: 'pins:read' },
+	'/(app)/runs/[id=id]': { read: 'runs:read', write: { pin: 'pins:create' } },
 	'/(app)/rigs': { read: 'rigs:read', write: 'rigs:manage' },
 	'/(app)/rigs/[id=id]': { read: 'rigs:read', write: 'rigs:manage' },
 	'/(app)/people': {
@@ -60,7 +61,10 @@ export const routeRules: Record<string, RouteRule> = {
 	'/api/runs': { read: 'runs:read' },
 	'/api/runs/[id=id]': { read: 'runs:read' },
 	'/api/runs/[id=id]/frames': { read: 'runs:read' },
-	'/api/runs/[id=id]/quarantine': { read: 'runs:read' }
+	'/api/runs/[id=id]/quarantine': { read: 'runs:read' },
+	'/api/runs/[id=id]/series': { read: 'runs:read' },
+	'/api/runs/[id=id]/pins': { read: 'pins:read', write: 'pins:create' },
+	'/api/pins': { read: 'pins:read' }
 };
 
 export function ruleFor(routeId: string, method: string, search: URLSearchParams): Rule | undefined {

@@ -25,3 +25,66 @@ export const pageQuery = z.object({
 	limit: z.coerce.number().int().min(1).max(1000).default(100),
 	offset: z.coerce.number().int().min(0).default(0)
 });
+
+// ── Runs table: filters and sort (added to runListQuery through runSearchQuery) ──
+export const runSortKeys = ['started', 'name', 'rig', 'duration', 'frames', 'gospa'] as const;
+export type RunSortKey = (typeof runSortKeys)[number];
+
+const day = z.iso.date({ error: 'must be a date (YYYY-MM-DD)' });
+
+/** runListQuery plus the Runs table's filters; every old query string still parses the same. */
+export const runSearchQuery = runListQuery
+	.extend({
+		tag: z.string().trim().min(1).max(64).optional(),
+		q: z.string().trim().max(200).optional(),
+		since: day.optional(),
+		until: day.optional(),
+		sort: z.enum(runSortKeys, { error: `sort must be one of ${runSortKeys.join(', ')}` }).default('started'),
+		dir: z.enum(['asc', 'desc'], { error: 'dir must be asc or desc' }).default('desc')
+	})
+	.refine((q) => !q.since || !q.until || q.since <= q.until, { path: ['until'], message: 'until must be on or after since' });
+export type RunSearch = z.infer<typeof runSearchQuery>;
+
+// ── Strips: downsampled metric series ──
+export const seriesQuery = z
+	.object({
+		/** seconds from the run's first frame */
+		from: time.optional(),
+		to: time.optional(),
+		buckets: z.coerce.number().int('buckets must be an integer').min(1, 'buckets must be 1..4000').max(4000, 'buckets must be 1..4000').default(600)
+	})
+	.refine((q) => q.from === undefined || q.to === undefined || q.from < q.to, { path: ['to'], message: 'to must be above from' });
+
+// ── Pins ──
+export const pinCategories = ['missed object', 'false object', 'late confirmation', 'label switch', 'poor localisation', 'feed problem', 'other'] as const;
+export const pinSeverities = ['low', 'medium', 'high', 'critical'] as const;
+export type PinCategory = (typeof pinCategories)[number];
+export type PinSeverity = (typeof pinSeverities)[number];
+
+/** The view a pin was seen in; also what `?view=` carries in a link. */
+export const pinViewSchema = z.object({
+	coords: z.enum(['world', 'ego']).default('world'),
+	zoom: z.number().positive().max(1e6),
+	cx: z.number().refine(Number.isFinite),
+	cy: z.number().refine(Number.isFinite),
+	layers: z.array(z.enum(['measurements', 'estimates', 'truth', 'assignment'])).max(4),
+	sigma: z.number().min(1).max(3).default(2),
+	selected: z.string().max(128).nullable().default(null)
+});
+export type PinView = z.infer<typeof pinViewSchema>;
+
+export const newPinSchema = z.object({
+	title: z.string({ error: 'give the pin a title' }).trim().min(1, 'give the pin a title').max(140, 'at most 140 characters'),
+	note: z.string().trim().max(4000, 'at most 4000 characters').default(''),
+	category: z.enum(pinCategories, { error: `category must be one of: ${pinCategories.join(', ')}` }),
+	severity: z.enum(pinSeverities, { error: `severity must be one of: ${pinSeverities.join(', ')}` }),
+	/** seconds from the run's first frame */
+	t: z.coerce.number({ error: 't must be a number' }).refine(Number.isFinite, 't must be a number').min(0, 't must be ≥ 0'),
+	view: pinViewSchema
+});
+export type NewPin = z.infer<typeof newPinSchema>;
+
+export const pinListQuery = z.object({
+	limit: z.coerce.number().int().min(1).max(500).default(100),
+	offset: z.coerce.number().int().min(0).default(0)
+});

@@ -1,11 +1,12 @@
 import { json } from '@sveltejs/kit';
-import { runListQuery } from '$lib/validation/runs';
+import { runSearchQuery } from '$lib/validation/runs';
 import { endpoint } from '$server/api';
-import { listRuns } from '$server/ingest/read';
+import { searchRuns } from '$server/ingest/read';
 import { readQuery } from '$server/query';
 import type { RequestHandler } from './$types';
 
+/** Runs, live first; filter by rig, status, tag, start date (since/until) and text (q); sort and dir; limit/offset. */
 export const GET: RequestHandler = endpoint(async ({ url }) => {
-	const q = readQuery(url, runListQuery);
-	return json(await listRuns({ rigId: q.rig, status: q.status, limit: q.limit, offset: q.offset }));
+	const q = readQuery(url, runSearchQuery);
+	return json(await searchRuns({ ...q, rigId: q.rig }));
 });

@@ -1,0 +1,113 @@
+import { describe, expect, it } from 'vitest';
+import type { Frame } from '$lib/protocol/types';
+import { atOrBefore, FrameCache, type FetchWindow } from './frame-cache';
+
+const T0 = 1_800_000_000;
+const HZ = 10;
+
+/** A 60 s run at 10 Hz whose fetches resolve only when the test says so. */
+function setup(maxWindows = 4) {
+	const pending: { from: number; to: number; resolve: () => void; signal: AbortSignal }[] = [];
+	const fetchWindow: FetchWindow = (from, to, signal) =>
+		new Promise<Frame[]>((resolve) => {
+			const frames: Frame[] = [];
+			for (let k = Math.max(0, Math.ceil((from - T0) * HZ - 1e-9)); k / HZ + T0 <= to + 1e-9 && k < 600; k++) frames.push({ seq: k, t: T0 + k / HZ, estimates: [] });
+			pending.push({ from, to, signal, resolve: () => resolve(frames) });
+		});
+	let changes = 0;
+	const cache = new FrameCache({ firstT: T0, duration: 59.9, windowS: 5, maxWindows, fetchWindow, onChange: () => changes++ });
+	const flush = async () => {
+		for (const p of pending.splice(0)) p.resolve();
+		await new Promise((r) => setTimeout(r, 0));
+	};
+	return { cache, pending, flush, changes: () => changes };
+}
+
+describe('FrameCache', () => {
+	it('finds the frame at or before a time', () => {
+		expect(atOrBefore([0, 0.1, 0.2], 0.15)).toBe(1);
+		expect(atOrBefore([0, 0.1, 0.2], -1)).toBe(-1);
+		expect(atOrBefore([0, 0.1, 0.2], 0.2)).toBe(2);
+	});
+
+	it('loads the window at the playhead and one ahead in the play direction', async () => {
+		const { cache, pending, flush } = setup();
+		cache.want(12.3, 1);
+		expect(pending.map((p) => Math.round(p.from - T0))).toEqual([15, 10]);
+		expect(cache.lookup(12.3)).toBeNull(); // nothing on hand yet: the scene keeps what it drew
+		await flush();
+		expect(cache.lookup(12.3)).toMatchObject({ exact: true });
+		expect(cache.lookup(12.3)!.t).toBeCloseTo(12.3, 6);
+		expect(cache.lookup(12.3)!.frame.seq).toBe(123);
+		cache.want(12.3, -1);
+		expect(pending.map((p) => Math.round(p.from - T0))).toEqual([5]);
+	});
+
+	it('keeps frames of a window to its own half-open span', async () => {
+		const { cache, flush } = setup();
+		cache.want(4.9, 1);
+		await flush();
+		expect(cache.range(0, 10).map((f) => f.seq)).toEqual(Array.from({ length: 100 }, (_, i) => i));
+	});
+
+	it('answers with the nearest frame on hand while the wanted window is loading', async () => {
+		const { cache, flush } = setup();
+		cache.want(2, 1);
+		await flush();
+		cache.want(40, 1);
+		const near = cache.lookup(40);
+		expect(near).toMatchObject({ exact: false });
+		expect(near!.frame.seq).toBe(99); // the last frame of 5–10 s, nearest to 40 s
+		expect(cache.isLoading()).toBe(true);
+		await flush();
+		expect(cache.lookup(40)).toMatchObject({ exact: true });
+		expect(cache.lookup(40)!.frame.seq).toBe(400);
+	});
+
+	it('evicts the least recently used windows beyond the bound and aborts their fetches', async () => {
+		const { cache, pending, flush } = setup(3);
+		cache.want(1, 1); // 0, 1
+		await flush();
+		cache.want(21, 1); // 4, 5 → 0 goes
+		const inflight = [...pending];
+		expect(cache.windowCount).toBe(3);
+		cache.want(41, 1); // 8, 9 → 1 and the in-flight 5 go
+		expect(cache.windowCount).toBe(3);
+		expect(inflight.find((p) => Math.round(p.from - T0) === 25)!.signal.aborted).toBe(true);
+		await flush();
+		expect(cache.lookup(1)!.exact).toBe(false);
+		expect(cache.frameCount).toBeLessThanOrEqual(3 * 50);
+	});
+
+	it('covers the trail span behind the playhead', async () => {
+		const { cache, pending } = setup(8);
+		cache.want(21, 1, 10, 1);
+		expect(pending.map((p) => Math.round(p.from - T0)).sort((a, b) => a - b)).toEqual([10, 15, 20, 25]);
+	});
+
+	it('steps frame by frame across window edges and stops where frames are not loaded', async () => {
+		const { cache, flush } = setup();
+		cache.want(4.9, 1);
+		await flush();
+		expect(cache.stepFrom(4.9, 1)).toBeCloseTo(5);
+		expect(cache.stepFrom(5, -1)).toBeCloseTo(4.9);
+		expect(cache.stepFrom(9.9, 1)).toBeNull();
+	});
+
+	it('refetches a failed window when it is wanted again', async () => {
+		let calls = 0;
+		const cache = new FrameCache({
+			firstT: T0,
+			duration: 10,
+			windowS: 5,
+			maxWindows: 4,
+			fetchWindow: () => (++calls === 1 ? Promise.reject(new Error('offline')) : Promise.resolve([{ seq: 0, t: T0 }]))
+		});
+		cache.want(0, 1, 0, 0);
+		await new Promise((r) => setTimeout(r, 0));
+		expect(cache.lookup(0)).toBeNull();
+		cache.want(0, 1, 0, 0);
+		await new Promise((r) => setTimeout(r, 0));
+		expect(cache.lookup(0)!.frame.seq).toBe(0);
+	});
+});

@@ -1,0 +1,225 @@
+/**
+ * The Run screen's frame cache, without DOM or Svelte: frames arrive in fixed time windows, the windows
+ * around the playhead (and ahead in the play direction) are kept, the least recently used go first, and a
+ * lookup always answers with the nearest frame on hand, so drawing never waits for the network.
+ */
+import type { Frame } from '$lib/protocol/types';
+
+/** t relative to the run's first frame, seconds; absolute device time is firstT + t */
+export type FetchWindow = (fromAbs: number, toAbs: number, signal: AbortSignal) => Promise<Frame[]>;
+
+/** time tolerance: epoch seconds carry ~0.2 µs of rounding */
+const EPS = 1e-5;
+
+export interface FrameCacheOptions {
+	firstT: number;
+	duration: number;
+	/** seconds a window covers */
+	windowS: number;
+	/** windows kept at most (memory bound) */
+	maxWindows: number;
+	fetchWindow: FetchWindow;
+	/** called whenever a window arrives */
+	onChange?: () => void;
+}
+
+interface Window {
+	index: number;
+	state: 'loading' | 'ready' | 'failed';
+	frames: Frame[];
+	/** run-relative t of each frame, ascending */
+	times: Float64Array;
+	abort: AbortController;
+}
+
+export interface Lookup {
+	frame: Frame;
+	/** run-relative t of the frame found */
+	t: number;
+	/** true when the frame is the one at or just before the wanted time */
+	exact: boolean;
+}
+
+export class FrameCache {
+	#o: FrameCacheOptions;
+	/** Map order is recency order: the last entry was used last */
+	#windows = new Map<number, Window>();
+
+	constructor(opts: FrameCacheOptions) {
+		this.#o = opts;
+	}
+
+	get windowCount() {
+		return this.#windows.size;
+	}
+
+	get frameCount() {
+		let n = 0;
+		for (const w of this.#windows.values()) n += w.frames.length;
+		return n;
+	}
+
+	get lastWindow() {
+		return Math.max(0, Math.floor(this.#o.duration / this.#o.windowS));
+	}
+
+	indexOf(t: number): number {
+		return Math.min(this.lastWindow, Math.max(0, Math.floor(t / this.#o.windowS)));
+	}
+
+	isLoaded(t: number): boolean {
+		return this.#windows.get(this.indexOf(t))?.state === 'ready';
+	}
+
+	isLoading(): boolean {
+		for (const w of this.#windows.values()) if (w.state === 'loading') return true;
+		return false;
+	}
+
+	/**
+	 * Asks for the windows covering [t − behindS, t] and `ahead` windows beyond in the play direction;
+	 * touches them so they are the last evicted, then evicts down to maxWindows.
+	 */
+	want(t: number, direction: 1 | -1 = 1, behindS = 0, ahead = 1): void {
+		const needed: number[] = [];
+		const here = this.indexOf(t);
+		needed.push(here);
+		for (let i = this.indexOf(t - behindS); i < here; i++) needed.push(i);
+		for (let k = 1; k <= ahead; k++) {
+			const i = here + k * direction;
+			if (i >= 0 && i <= this.lastWindow) needed.push(i);
+		}
+		// touch in reverse priority so the current window ends most recent
+		for (const i of [...needed].reverse()) this.#touch(i);
+		this.#evict(new Set(needed));
+	}
+
+	#touch(index: number) {
+		const w = this.#windows.get(index);
+		if (w) {
+			this.#windows.delete(index);
+			this.#windows.set(index, w);
+			if (w.state === 'failed') this.#load(index);
+			return;
+		}
+		this.#load(index);
+	}
+
+	#load(index: number) {
+		const abort = new AbortController();
+		const w: Window = { index, state: 'loading', frames: [], times: new Float64Array(0), abort };
+		this.#windows.set(index, w);
+		const from = this.#o.firstT + index * this.#o.windowS;
+		const to = from + this.#o.windowS;
+		this.#o.fetchWindow(from - EPS, to, abort.signal).then(
+			(frames) => {
+				if (this.#windows.get(index) !== w) return;
+				// windows are half-open [from, to): a frame exactly at `to` belongs to the next one
+				const own = frames.filter((f) => this.indexOf(f.t - this.#o.firstT + EPS) === index);
+				w.frames = own;
+				w.times = Float64Array.from(own, (f) => f.t - this.#o.firstT);
+				w.state = 'ready';
+				this.#o.onChange?.();
+			},
+			() => {
+				if (this.#windows.get(index) !== w) return;
+				w.state = 'failed';
+				this.#o.onChange?.();
+			}
+		);
+	}
+
+	#evict(keep: Set<number>) {
+		for (const [index, w] of this.#windows) {
+			if (this.#windows.size <= this.#o.maxWindows) break;
+			if (keep.has(index)) continue;
+			w.abort.abort();
+			this.#windows.delete(index);
+		}
+	}
+
+	/** The frame at or just before t if its window is loaded; otherwise the nearest frame of any loaded window. */
+	lookup(t: number): Lookup | null {
+		const w = this.#windows.get(this.indexOf(t));
+		if (w?.state === 'ready' && w.frames.length) {
+			const i = atOrBefore(w.times, t);
+			if (i >= 0) return { frame: w.frames[i], t: w.times[i], exact: true };
+			// t falls before the window's first frame: the previous window's last frame is the right one
+			const prev = this.#windows.get(w.index - 1);
+			if (prev?.state === 'ready' && prev.frames.length) {
+				const j = prev.frames.length - 1;
+				return { frame: prev.frames[j], t: prev.times[j], exact: true };
+			}
+			return { frame: w.frames[0], t: w.times[0], exact: w.index === 0 };
+		}
+		let best: Lookup | null = null;
+		let bestGap = Infinity;
+		for (const other of this.#windows.values()) {
+			if (other.state !== 'ready' || !other.frames.length) continue;
+			const i = Math.max(0, atOrBefore(other.times, t));
+			for (const k of [i, i + 1]) {
+				if (k >= other.frames.length) continue;
+				const gap = Math.abs(other.times[k] - t);
+				if (gap < bestGap) {
+					bestGap = gap;
+					best = { frame: other.frames[k], t: other.times[k], exact: false };
+				}
+			}
+		}
+		return best;
+	}
+
+	/** Frames with run-relative t in [from, to], oldest first, from loaded windows only (for trails). */
+	range(from: number, to: number): Frame[] {
+		const out: Frame[] = [];
+		for (let i = this.indexOf(from); i <= this.indexOf(to); i++) {
+			const w = this.#windows.get(i);
+			if (w?.state !== 'ready') continue;
+			for (let k = 0; k < w.frames.length; k++) if (w.times[k] >= from && w.times[k] <= to) out.push(w.frames[k]);
+		}
+		return out;
+	}
+
+	/** The run-relative t of the frame `step` frames from t, within loaded windows; null when not loaded. */
+	stepFrom(t: number, step: 1 | -1): number | null {
+		const here = this.lookup(t);
+		if (!here?.exact) return null;
+		const target = step > 0 ? here.t + EPS : here.t - EPS;
+		if (step > 0) {
+			for (let i = this.indexOf(target); i <= this.lastWindow; i++) {
+				const w = this.#windows.get(i);
+				if (w?.state !== 'ready') return null;
+				const k = atOrBefore(w.times, target) + 1;
+				if (k < w.times.length) return w.times[k];
+			}
+			return null;
+		}
+		for (let i = this.indexOf(target); i >= 0; i--) {
+			const w = this.#windows.get(i);
+			if (w?.state !== 'ready') return null;
+			const k = atOrBefore(w.times, target - EPS);
+			if (k >= 0) return w.times[k];
+		}
+		return null;
+	}
+
+	destroy() {
+		for (const w of this.#windows.values()) w.abort.abort();
+		this.#windows.clear();
+	}
+}
+
+/** Index of the last time ≤ t, or −1. */
+export function atOrBefore(times: ArrayLike<number>, t: number): number {
+	let lo = 0;
+	let hi = times.length - 1;
+	let ans = -1;
+	while (lo <= hi) {
+		const mid = (lo + hi) >> 1;
+		if (times[mid] <= t + EPS) {
+			ans = mid;
+			lo = mid + 1;
+		} else hi = mid - 1;
+	}
+	return ans;
+}

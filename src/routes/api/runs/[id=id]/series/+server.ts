@@ -1,0 +1,18 @@
+import { json } from '@sveltejs/kit';
+import { seriesQuery } from '$lib/validation/runs';
+import { ApiError, endpoint } from '$server/api';
+import { getRun, readSeries } from '$server/ingest/read';
+import { readQuery } from '$server/query';
+import type { RequestHandler } from './$types';
+
+/** The metric columns downsampled to `buckets` time buckets (min, max, mean); from/to in seconds from run start. */
+export const GET: RequestHandler = endpoint(async ({ params, url }) => {
+	const q = readQuery(url, seriesQuery);
+	const run = await getRun(params.id);
+	if (!run) throw new ApiError('not_found', 'No such run');
+	const duration = run.duration_s ?? 0;
+	if (run.first_t === null) return json({ series: null });
+	const from = Math.max(0, q.from ?? 0);
+	const to = Math.max(from + 1e-3, q.to ?? duration);
+	return json({ series: await readSeries(params.id, run.first_t, from, to, q.buckets) });
+});
