@@ -12,6 +12,7 @@ import { expiresField, keyLabelField, rigNameField, uuidField } from '../src/lib
 import { createFeedKey, createRig, findFeedKeysByPrefix, findRigByName, getFeedKey, listAllFeedKeys, revokeFeedKey, RigsError } from '../src/lib/server/rigs';
 import { demoCluster, startCluster, ensureDatabase } from './lib/pg';
 import { applyMigrations } from '../src/lib/server/db/migrate';
+import { parseSimulateArgs, simulate, SimulateUsageError } from './sim/command';
 
 class UsageError extends Error {}
 
@@ -23,7 +24,10 @@ const usage = `usage: npm run cli -- <command>
   keys create --rig NAME [--label L] [--expires ISO]
                                        (makes the rig if it is new; prints the feed key alone on the last line)
   keys list [--rig NAME]               (rig, key id, prefix, label, status, last used; tab-separated)
-  keys revoke --id KEYID | --prefix P`;
+  keys revoke --id KEYID | --prefix P
+  simulate --rig NAME --scenario NAME [--speed 1] [--duration S] [--seed N] [--url ws://…] [--key K] [--loop]
+                                       (streams a simulated rig to a running Skein; Ctrl-C closes the run)
+                                       scenarios: lanternfall-crossing, glassmere-reach, brassnettle-yard`;
 
 const cliActor: Actor = { ...systemActor, label: 'cli' };
 
@@ -58,7 +62,46 @@ function check<S extends z.ZodType>(schema: S, input: unknown): z.infer<S> {
 	return r.data;
 }
 
+async function simulateCommand(args: string[]): Promise<void> {
+	let values;
+	try {
+		values = parseArgs({
+			args,
+			options: {
+				rig: { type: 'string' },
+				scenario: { type: 'string' },
+				speed: { type: 'string' },
+				duration: { type: 'string' },
+				seed: { type: 'string' },
+				url: { type: 'string' },
+				key: { type: 'string' },
+				loop: { type: 'boolean' }
+			},
+			strict: true,
+			allowPositionals: false
+		}).values;
+	} catch (err) {
+		throw new UsageError(err instanceof Error ? err.message : String(err));
+	}
+	let parsed;
+	try {
+		parsed = parseSimulateArgs(values);
+	} catch (err) {
+		if (err instanceof SimulateUsageError) throw new UsageError(err.message);
+		throw err;
+	}
+	const stop = new AbortController();
+	const onSignal = () => {
+		console.log('stopping: closing the run…');
+		stop.abort();
+	};
+	process.once('SIGINT', onSignal);
+	process.once('SIGTERM', onSignal);
+	await simulate(parsed, stop.signal, (line) => console.log(line));
+}
+
 async function run(argv: string[]): Promise<void> {
+	if (argv[0] === 'simulate') return simulateCommand(argv.slice(1));
 	const [group, command, ...rest] = argv;
 	const key = `${group ?? ''} ${command ?? ''}`.trim();
 	switch (key) {

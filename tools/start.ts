@@ -1,24 +1,26 @@
 /**
- * `npm start`: PostgreSQL, migrations, demo seed, build when stale, then the app (with its mail catcher)
- * on PORT. Prints the URL and the demo sign-in.
+ * `npm start`: PostgreSQL, migrations, demo people, build when stale, the app (with its mail catcher) on PORT,
+ * then the demo's recorded runs and one rig streaming live (SKEIN_DEMO_LIVE=off turns that off).
+ * Prints the URL and the demo sign-in.
  */
 import { spawn } from 'node:child_process';
 import { resolve } from 'node:path';
-import { applyMigrations } from '../src/lib/server/db/migrate';
 import { closeDb } from '../src/lib/server/db';
+import { applyMigrations } from '../src/lib/server/db/migrate';
 import { buildIfStale } from './lib/build';
 import { demoCluster, ensureDatabase, startCluster } from './lib/pg';
-import { demoAdmin, seedDemo } from './seed';
+import { demoAdmin, demoKey, liveDemo, seedDemoPeople, seedDemoRuns } from './seed';
+import { runSimulatedRig } from './sim/rig';
 
 const root = resolve(import.meta.dirname, '..');
 const port = Number(process.env.PORT ?? 3000);
+const log = (line: string) => process.stdout.write(`[demo] ${line}\n`);
 
 const url = process.env.DATABASE_URL ?? startCluster(demoCluster);
 process.env.DATABASE_URL = url;
 await ensureDatabase(url);
 await applyMigrations(url, resolve(root, 'drizzle'));
-await seedDemo();
-await closeDb();
+await seedDemoPeople();
 buildIfStale();
 
 const app = spawn(process.execPath, ['--import', 'tsx', resolve(root, 'server-ws/server.ts')], {
@@ -26,11 +28,45 @@ const app = spawn(process.execPath, ['--import', 'tsx', resolve(root, 'server-ws
 	stdio: ['ignore', 'inherit', 'inherit'],
 	env: { ...process.env, PORT: String(port), NODE_ENV: 'production', MAIL_CATCHER_PORT: process.env.MAIL_CATCHER_PORT ?? '2525' }
 });
+const stopping = new AbortController();
+for (const sig of ['SIGINT', 'SIGTERM'] as const) {
+	process.on(sig, () => {
+		stopping.abort();
+		app.kill(sig);
+	});
+}
+app.on('exit', (code) => {
+	stopping.abort();
+	void closeDb().finally(() => process.exit(code ?? 0));
+});
 
-const shown = `http://127.0.0.1:${port}`;
-setTimeout(() => {
-	console.log(`\n  Skein is up: ${shown}\n  Demo sign-in: ${demoAdmin.email} / ${demoAdmin.password}\n  Stop with Ctrl-C (PostgreSQL keeps running; npm run db:stop stops it).\n`);
-}, 1500);
+const base = `http://127.0.0.1:${port}`;
+for (let i = 0; ; i++) {
+	try {
+		if ((await fetch(`${base}/healthz`)).ok) break;
+	} catch {
+		/* not up yet */
+	}
+	if (i > 300) throw new Error('the app did not come up within a minute');
+	await new Promise((r) => setTimeout(r, 200));
+}
 
-for (const sig of ['SIGINT', 'SIGTERM'] as const) process.on(sig, () => app.kill(sig));
-app.on('exit', (code) => process.exit(code ?? 0));
+const ingestUrl = `ws://127.0.0.1:${port}/ingest/v1`;
+await seedDemoRuns(ingestUrl, log);
+console.log(
+	`\n  Skein is up: ${base}\n  Demo sign-in: ${demoAdmin.email} / ${demoAdmin.password}\n  Stop with Ctrl-C (PostgreSQL keeps running; npm run db:stop stops it).\n`
+);
+
+if (process.env.SKEIN_DEMO_LIVE !== 'off') {
+	const key = await demoKey(liveDemo.rig, 'live demo');
+	log(`${liveDemo.rig} is streaming live (${liveDemo.scenario}); SKEIN_DEMO_LIVE=off turns this off`);
+	for (let seed = Math.floor(Date.now() / 1000) % 100_000; !stopping.signal.aborted; seed++) {
+		try {
+			await runSimulatedRig({ url: ingestUrl, key, scenario: liveDemo.scenario, seed, speed: 1, signal: stopping.signal, tags: ['live', 'demo'] });
+		} catch (err) {
+			if (stopping.signal.aborted) break;
+			log(`live rig stopped: ${err instanceof Error ? err.message : String(err)}; restarting in 5 s`);
+			await new Promise((r) => setTimeout(r, 5000));
+		}
+	}
+}

@@ -1,7 +1,7 @@
 /** The app for the end-to-end run: seeds the demo sign-in into the e2e database, then serves the build. */
 import { closeDb } from '../../src/lib/server/db';
-import { seedDemo } from '../../tools/seed';
+import { seedDemoPeople } from '../../tools/seed';
 
-await seedDemo();
+await seedDemoPeople();
 await closeDb();
 await import('../../server-ws/server');

@@ -29,7 +29,7 @@ export interface RunningApp {
 }
 
 export async function startApp(env: Record<string, string> = {}): Promise<RunningApp> {
-	const port = await freePort();
+	const port = env.PORT ? Number(env.PORT) : await freePort();
 	let out = '';
 	const child = spawn(process.execPath, ['--import', 'tsx', resolve(root, 'server-ws/server.ts')], {
 		cwd: root,
