@@ -1,0 +1,5 @@
+import { runFacets } from '$server/ingest/read';
+import type { PageServerLoad } from './$types';
+
+/** Only the filter choices; the table itself is fetched by the browser from /api/runs. */
+export const load = (async () => ({ facets: await runFacets() })) satisfies PageServerLoad;

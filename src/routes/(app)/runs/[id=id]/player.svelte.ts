@@ -1,0 +1,165 @@
+/**
+ * The playhead of the Run screen: time, play/pause, speed and steps, and the frame cache behind it.
+ * The displayed frame is the nearest one on hand; while the wanted window loads the screen says "catching up".
+ */
+import { Unpackr } from 'msgpackr';
+import { evaluateFrame, parseMetricSettings, defaultMetricSettings, type FrameEvaluation, type MetricSettings } from '$lib/metrics';
+import type { Frame } from '$lib/protocol/types';
+import { FrameCache } from '$lib/viewer/frame-cache';
+
+const unpackr = new Unpackr({ useRecords: false, mapsAsObjects: true, int64AsType: 'number' });
+export const SPEEDS = [0.1, 0.25, 0.5, 1, 2, 4, 8, 16] as const;
+/** seconds of history the scene draws as trails */
+export const TRAIL_S = 5;
+
+export interface PlayerRun {
+	id: string;
+	firstT: number | null;
+	duration: number;
+	frameRate: number | null;
+	stateFields: string[];
+	coords: 'world' | 'ego';
+	metricSettings: Record<string, unknown> | null;
+}
+
+export class RunPlayer {
+	t = $state(0);
+	playing = $state(false);
+	speed = $state(1);
+	direction = $state<1 | -1>(1);
+	/** the frame on screen and its run-relative time */
+	frame = $state.raw<Frame | null>(null);
+	frameT = $state(0);
+	catchingUp = $state(false);
+
+	readonly run: PlayerRun;
+	readonly cache: FrameCache | null;
+	readonly settings: MetricSettings;
+	readonly evaluation: FrameEvaluation | null = $derived.by(() => (this.frame ? this.evaluate(this.frame) : null));
+
+	#raf = 0;
+	#last = 0;
+	#evals = new WeakMap<Frame, FrameEvaluation>();
+
+	constructor(run: PlayerRun, t0 = 0) {
+		this.run = run;
+		const parsed = run.metricSettings ? parseMetricSettings(run.metricSettings, run.stateFields) : null;
+		this.settings = parsed?.ok ? parsed.settings : defaultMetricSettings;
+		this.t = clamp(t0, 0, run.duration);
+		const rate = run.frameRate && run.frameRate > 0 ? run.frameRate : 10;
+		this.cache =
+			run.firstT === null
+				? null
+				: new FrameCache({
+						firstT: run.firstT,
+						duration: run.duration,
+						// ~40 frames a window keeps each fetch small even for heavy frames
+						windowS: Math.max(0.5, 40 / rate),
+						maxWindows: 24,
+						fetchWindow: (from, to, signal) => this.#fetch(from, to, signal),
+						onChange: () => this.refresh()
+					});
+		this.refresh();
+	}
+
+	async #fetch(from: number, to: number, signal: AbortSignal): Promise<Frame[]> {
+		const res = await fetch(`/api/runs/${this.run.id}/frames?from=${from}&to=${to}&limit=5000`, {
+			headers: { accept: 'application/x-msgpack' },
+			signal
+		});
+		if (!res.ok) throw new Error(`frames: HTTP ${res.status}`);
+		return (unpackr.unpack(new Uint8Array(await res.arrayBuffer())) as { frames: Frame[] }).frames;
+	}
+
+	/** evaluation per frame, kept as long as the frame is cached */
+	evaluate(frame: Frame): FrameEvaluation | null {
+		let e = this.#evals.get(frame);
+		if (!e) {
+			try {
+				e = evaluateFrame(frame, { stateFields: this.run.stateFields, settings: this.settings, coords: this.run.coords });
+			} catch {
+				return null;
+			}
+			this.#evals.set(frame, e);
+		}
+		return e;
+	}
+
+	/** Asks the cache for the windows around t and shows the nearest frame on hand. */
+	refresh() {
+		if (!this.cache) return;
+		this.cache.want(this.t, this.direction, TRAIL_S, this.playing ? 2 : 1);
+		const found = this.cache.lookup(this.t);
+		this.catchingUp = !found?.exact;
+		if (found && found.frame !== this.frame) {
+			this.frame = found.frame;
+			this.frameT = found.t;
+		}
+	}
+
+	/** trail frames: the last TRAIL_S seconds up to the frame on screen */
+	trail(): Frame[] {
+		return this.cache ? this.cache.range(this.frameT - TRAIL_S, this.frameT) : [];
+	}
+
+	seek(t: number) {
+		this.t = clamp(t, 0, this.run.duration);
+		this.refresh();
+	}
+
+	toggle() {
+		if (this.playing) this.pause();
+		else this.play();
+	}
+
+	play() {
+		if (this.playing) return;
+		if (this.t >= this.run.duration) this.t = 0;
+		this.playing = true;
+		this.direction = 1;
+		this.#last = performance.now();
+		const tick = (now: number) => {
+			if (!this.playing) return;
+			const dt = Math.min(0.25, (now - this.#last) / 1000);
+			this.#last = now;
+			this.t = Math.min(this.run.duration, this.t + dt * this.speed);
+			this.refresh();
+			if (this.t >= this.run.duration) this.playing = false;
+			else this.#raf = requestAnimationFrame(tick);
+		};
+		this.#raf = requestAnimationFrame(tick);
+	}
+
+	pause() {
+		this.playing = false;
+		cancelAnimationFrame(this.#raf);
+	}
+
+	faster(step: 1 | -1) {
+		const i = SPEEDS.indexOf(this.speed as (typeof SPEEDS)[number]);
+		this.speed = SPEEDS[clamp((i < 0 ? 3 : i) + step, 0, SPEEDS.length - 1)];
+	}
+
+	stepFrame(step: 1 | -1) {
+		this.pause();
+		this.direction = step;
+		const next = this.cache?.stepFrom(this.frameT, step);
+		const rate = this.run.frameRate && this.run.frameRate > 0 ? this.run.frameRate : 10;
+		this.seek(next ?? this.frameT + step / rate);
+	}
+
+	stepSecond(step: 1 | -1) {
+		this.pause();
+		this.direction = step;
+		this.seek(this.t + step);
+	}
+
+	destroy() {
+		this.pause();
+		this.cache?.destroy();
+	}
+}
+
+export function clamp(v: number, lo: number, hi: number) {
+	return Math.min(hi, Math.max(lo, v));
+}

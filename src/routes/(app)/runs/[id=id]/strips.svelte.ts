@@ -1,0 +1,162 @@
+/**
+ * The strips' data: the run's metric series downsampled on the server, refetched finer when the strips are
+ * zoomed in, and the GOSPA spikes the timeline marks.
+ */
+import { neesBounds, type MetricSettings } from '$lib/metrics';
+import { bucketsFor, needsRefinement } from '$lib/viewer/series';
+
+interface Stats {
+	min: (number | null)[];
+	max: (number | null)[];
+	mean: (number | null)[];
+}
+
+export interface Series {
+	from: number;
+	to: number;
+	width: number;
+	t: number[];
+	frames: number[];
+	columns: Record<string, Stats>;
+	zones: Record<string, Stats>;
+}
+
+export interface StripSpec {
+	id: string;
+	title: string;
+	unit: string;
+	lines: { label: string; values: (number | null)[]; color: string; fill?: string; dash?: number[] }[];
+	/** pairs of line indexes to shade between */
+	bands?: [number, number, string][];
+}
+
+export class StripsState {
+	series = $state.raw<Series | null>(null);
+	overview = $state.raw<Series | null>(null);
+	range = $state<[number, number] | null>(null);
+	error = $state<string | null>(null);
+
+	#abort: AbortController | null = null;
+
+	constructor(
+		private runId: string,
+		private duration: number,
+		private frames: number,
+		private settings: MetricSettings,
+		private dim: number
+	) {}
+
+	async load(from: number, to: number, px: number) {
+		this.#abort?.abort();
+		const abort = (this.#abort = new AbortController());
+		const buckets = bucketsFor(px, Math.ceil((this.frames * (to - from)) / Math.max(this.duration, 1e-9)));
+		try {
+			const res = await fetch(`/api/runs/${this.runId}/series?from=${from}&to=${to}&buckets=${buckets}`, { signal: abort.signal });
+			if (!res.ok) throw new Error(`series: HTTP ${res.status}`);
+			const body = (await res.json()) as { series: Series | null };
+			this.series = body.series;
+			if (!this.range) this.overview = body.series;
+			this.error = null;
+		} catch (err) {
+			if ((err as Error).name !== 'AbortError') this.error = 'Strips could not load';
+		}
+	}
+
+	/** zooms the strips to [from, to]; fetches a finer series when the one on hand is too coarse */
+	zoom(from: number, to: number, px: number) {
+		const full = from <= 0 && to >= this.duration;
+		this.range = full ? null : [from, to];
+		if (full && this.overview) this.series = this.overview;
+		else if (!this.series || needsRefinement(this.series.width, from, to, px)) void this.load(from, to, px);
+	}
+
+	/** bucket starts where GOSPA jumps well above its run level (mean + 2 sd of the bucket maxima) */
+	readonly spikes = $derived.by(() => {
+		const s = this.overview;
+		if (!s) return [];
+		const g = s.columns.gospa?.max ?? [];
+		const vals = g.filter((v): v is number => v !== null);
+		if (vals.length < 3) return [];
+		const mean = vals.reduce((a, b) => a + b, 0) / vals.length;
+		const sd = Math.sqrt(vals.reduce((a, b) => a + (b - mean) ** 2, 0) / vals.length);
+		const out: number[] = [];
+		g.forEach((v, i) => {
+			if (v !== null && v > mean + 2 * sd && (i === 0 || (g[i - 1] ?? 0) <= mean + 2 * sd)) out.push(s.t[i]);
+		});
+		return out;
+	});
+
+	readonly strips = $derived.by((): StripSpec[] => {
+		const s = this.series;
+		if (!s) return [];
+		const col = (c: string) => s.columns[c] ?? { min: [], max: [], mean: [] };
+		const { c, p } = this.settings;
+		const half = c ** p / 2;
+		const loc = col('gospa_localization').mean;
+		const missed = col('gospa_missed').mean.map((v) => (v === null ? null : v * half));
+		const falses = col('gospa_false').mean.map((v) => (v === null ? null : v * half));
+		const sum = (...a: (number | null)[][]) => a[0].map((_, i) => (a.some((x) => x[i] === null) ? null : a.reduce((acc, x) => acc + (x[i] as number), 0)));
+		const b = neesBounds(1, this.dim);
+		const unitP = p === 1 ? 'm' : `m^${p}`;
+		const zoneColors = ['#4F46E5', '#0E7C74', '#C07A12', '#8E2C66'];
+		return [
+			{
+				id: 'cardinality',
+				title: 'Cardinality',
+				unit: 'objects',
+				lines: [
+					{ label: 'truth', values: col('n_truth').mean, color: '#8E2C66' },
+					{ label: 'estimates', values: col('n_estimates').mean, color: '#0E7C74' },
+					{ label: 'E[N]', values: col('expected_cardinality').mean, color: '#0E7C74', dash: [4, 3] },
+					{ label: 'E[N] min', values: col('expected_cardinality').min, color: 'transparent' },
+					{ label: 'E[N] max', values: col('expected_cardinality').max, color: 'transparent' }
+				],
+				bands: [[4, 3, 'rgba(14,124,116,0.15)']]
+			},
+			{
+				id: 'gospa',
+				title: `GOSPA^${p} split (c ${c}, p ${p})`,
+				unit: unitP,
+				lines: [
+					{ label: 'localization', values: loc, color: '#0E7C74', fill: 'rgba(14,124,116,0.35)' },
+					{ label: '+ missed', values: sum(loc, missed), color: '#8E2C66', fill: 'rgba(142,44,102,0.3)' },
+					{ label: '+ false', values: sum(loc, missed, falses), color: '#C07A12', fill: 'rgba(192,122,18,0.3)' }
+				],
+				bands: [
+					[2, 1, 'rgba(192,122,18,0.3)'],
+					[1, 0, 'rgba(142,44,102,0.3)']
+				]
+			},
+			{
+				id: 'ospa',
+				title: 'OSPA',
+				unit: 'm',
+				lines: [
+					{ label: 'mean', values: col('ospa').mean, color: '#243B6B' },
+					{ label: 'max', values: col('ospa').max, color: '#243B6B', dash: [2, 3] }
+				]
+			},
+			{
+				id: 'nees',
+				title: `Mean NEES (dim ${this.dim}), 95 % band`,
+				unit: 'χ²',
+				lines: [
+					{ label: 'NEES', values: col('nees_mean').mean, color: '#0E7C74' },
+					{ label: 'lower', values: s.t.map(() => b.lower), color: 'rgba(79,70,229,0.5)', dash: [3, 3] },
+					{ label: 'upper', values: s.t.map(() => b.upper), color: 'rgba(79,70,229,0.5)', dash: [3, 3] }
+				],
+				bands: [[2, 1, 'rgba(79,70,229,0.08)']]
+			},
+			{
+				id: 'zones',
+				title: 'Zone occupancy',
+				unit: 'P',
+				lines: Object.entries(s.zones).map(([name, z], i) => ({ label: name, values: z.mean, color: zoneColors[i % 4] }))
+			}
+		];
+	});
+
+	destroy() {
+		this.#abort?.abort();
+	}
+}
