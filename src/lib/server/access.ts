@@ -32,6 +32,7 @@ export const routeRules: Record<string, RouteRule> = {
 	'/(app)/live': { read: 'runs:read' },
 	'/(app)/pins': { read: 'pins:read' },
 	'/(app)/runs/[id=id]': { read: 'runs:read', write: { pin: 'pins:create' } },
+	'/(app)/runs/[id=id]/metrics': { read: 'runs:read', write: { settings: 'runs:configure' } },
 	'/(app)/rigs': { read: 'rigs:read', write: 'rigs:manage' },
 	'/(app)/rigs/[id=id]': { read: 'rigs:read', write: 'rigs:manage' },
 	'/(app)/people': {
@@ -62,6 +63,9 @@ export const routeRules: Record<string, RouteRule> = {
 	'/api/runs/[id=id]': { read: 'runs:read' },
 	'/api/runs/[id=id]/frames': { read: 'runs:read' },
 	'/api/runs/[id=id]/quarantine': { read: 'runs:read' },
+	'/api/runs/[id=id]/metrics': { read: 'runs:read' },
+	'/api/runs/[id=id]/summary': { read: 'runs:read' },
+	'/api/runs/[id=id]/settings': { read: 'runs:read', write: 'runs:configure' },
 	'/api/runs/[id=id]/series': { read: 'runs:read' },
 	'/api/runs/[id=id]/pins': { read: 'pins:read', write: 'pins:create' },
 	'/api/pins': { read: 'pins:read' }
