@@ -23,7 +23,11 @@ import { Browserish } from '../support/client';
 import { makePerson } from '../support/factories';
 import { makeRigWithKey } from '../support/rigs';
 
-const runSpec = { name: 'metrics yard loop', state_fields: ['x', 'y', 'vx', 'vy'], measurement_fields: ['x', 'y'] };
+const runSpec = {
+	name: 'metrics yard loop',
+	state_fields: ['x', 'y', 'vx', 'vy'],
+	measurement_fields: ['x', 'y']
+};
 const t0 = 1_790_100_000;
 const dt = 0.1;
 const ego = { x: 0, y: 0, heading: 0 };
@@ -59,7 +63,11 @@ const frames: Omit<Frame, 'seq'>[] = [
 		ego,
 		measurements,
 		truth: T,
-		estimates: [{ ...a, x: [0.5, -5, 0, 0] }, { id: 'c', x: [40, 0.5, 0, 0], r: 1, P: diag(0.25, 0.25) }, ghost]
+		estimates: [
+			{ ...a, x: [0.5, -5, 0, 0] },
+			{ id: 'c', x: [40, 0.5, 0, 0], r: 1, P: diag(0.25, 0.25) },
+			ghost
+		]
 	}
 ];
 
@@ -95,14 +103,22 @@ const lane = 'ego lane 0–20 m';
 beforeAll(async () => {
 	base = inject('appUrl');
 	await startMetricJobs(process.env.DATABASE_URL);
-	const [v, e] = await Promise.all([makePerson('viewer', 'metrics-viewer'), makePerson('engineer', 'metrics-engineer')]);
+	const [v, e] = await Promise.all([
+		makePerson('viewer', 'metrics-viewer'),
+		makePerson('engineer', 'metrics-engineer')
+	]);
 	viewer = new Browserish(base);
 	engineer = new Browserish(base);
 	await viewer.signIn(v.email, v.password);
 	await engineer.signIn(e.email, e.password);
 
 	const rig = await makeRigWithKey('metrics');
-	const client = new SkeinRigClient({ url: base.replace('http', 'ws') + '/ingest/v1', key: rig.secret, clientRunId: 'm1', run: runSpec });
+	const client = new SkeinRigClient({
+		url: base.replace('http', 'ws') + '/ingest/v1',
+		key: rig.secret,
+		clientRunId: 'm1',
+		run: runSpec
+	});
 	({ runId } = await client.start());
 	for (const f of frames) client.send(f);
 	expect(await client.close()).toEqual({ run_id: runId, frames: frames.length });
@@ -127,14 +143,28 @@ describe('GET /api/runs/{id}/metrics', () => {
 		expect(body.next_from_seq).toBeNull();
 		const r = body.rows;
 		expect(r.map((x) => x.seq)).toEqual([0, 1, 2, 3, 4]);
-		expect(r[0]).toMatchObject({ t: t0, n_truth: 2, n_estimates: 3, gospa_missed: 0, gospa_false: 1, nees_mean: 1, nees_count: 1 });
+		expect(r[0]).toMatchObject({
+			t: t0,
+			n_truth: 2,
+			n_estimates: 3,
+			gospa_missed: 0,
+			gospa_false: 1,
+			nees_mean: 1,
+			nees_count: 1
+		});
 		expect(r[0].gospa).toBeCloseTo(Math.sqrt(76), 12);
 		expect(r[0].gospa_localization).toBeCloseTo(26, 12);
 		expect(r[0].ospa).toBeCloseTo(Math.sqrt(42), 12);
 		expect(r[0].expected_cardinality).toBeCloseTo(2.5, 12);
 		expect(r[0].zones[lane]).toBeCloseTo(0.96, 12);
 		expect(r[1]).toMatchObject({ n_truth: null, gospa: null, ospa: null, n_estimates: 3 });
-		expect(r[2]).toMatchObject({ n_truth: 0, n_estimates: 0, gospa: 0, ospa: 0, expected_cardinality: 0 });
+		expect(r[2]).toMatchObject({
+			n_truth: 0,
+			n_estimates: 0,
+			gospa: 0,
+			ospa: 0,
+			expected_cardinality: 0
+		});
 		expect(r[4].gospa).toBeCloseTo(Math.sqrt(50.5), 12);
 		expect(r[4].zones[lane]).toBeCloseTo(0.6, 12);
 	});
@@ -149,7 +179,9 @@ describe('GET /api/runs/{id}/metrics', () => {
 	});
 
 	it('writes CSV: header with zone columns, full-precision numbers, empty cells where truth is absent', async () => {
-		const res = await viewer.request(`/api/runs/${runId}/metrics`, { headers: { accept: 'text/csv' } });
+		const res = await viewer.request(`/api/runs/${runId}/metrics`, {
+			headers: { accept: 'text/csv' }
+		});
 		expect(res.status).toBe(200);
 		expect(res.headers.get('content-type')).toMatch(/^text\/csv/);
 		const lines = (await res.text()).split('\r\n');
@@ -183,7 +215,9 @@ describe('GET /api/runs/{id}/metrics', () => {
 		// f4 with c = 3: both pairs (0.5 m) stay, ghost false → GOSPA² = 0.5 + 4.5 = 5.
 		const f4 = await rows('?c=3&from_seq=4');
 		expect(f4.rows[0].gospa).toBeCloseTo(Math.sqrt(5), 12);
-		const csv = await viewer.request(`/api/runs/${runId}/metrics?c=3&p=1&to_seq=0`, { headers: { accept: 'text/csv' } });
+		const csv = await viewer.request(`/api/runs/${runId}/metrics?c=3&p=1&to_seq=0`, {
+			headers: { accept: 'text/csv' }
+		});
 		// p = 1, c = 3: 1 + (3/2)(1 + 2) = 5.5
 		expect((await csv.text()).split('\r\n')[1].split(',')[6]).toBe('5.5');
 		expect((await rows('?to_seq=0')).rows[0].gospa).toBeCloseTo(Math.sqrt(76), 12);
@@ -202,7 +236,9 @@ describe('GET /api/runs/{id}/metrics', () => {
 		]) {
 			const res = await viewer.json(`/api/runs/${runId}/metrics?${q}`, 'GET');
 			expect(res.status, q).toBe(422);
-			const body = (await res.json()) as { error: { code: string; details: Record<string, string> } };
+			const body = (await res.json()) as {
+				error: { code: string; details: Record<string, string> };
+			};
 			expect(body.error.code).toBe('invalid');
 			expect(Object.keys(body.error.details), q).toContain(key);
 		}
@@ -219,11 +255,21 @@ describe('GET /api/runs/{id}/summary', () => {
 	it('gives the run figures with units, computed once and then served from the cache', async () => {
 		const res = await viewer.json(`/api/runs/${runId}/summary`, 'GET');
 		expect(res.status).toBe(200);
-		const body = (await res.json()) as { units: Record<string, string>; recomputed: boolean; summary: RunSummary };
+		const body = (await res.json()) as {
+			units: Record<string, string>;
+			recomputed: boolean;
+			summary: RunSummary;
+		};
 		expect(body.recomputed).toBe(true);
-		expect(body.units).toMatchObject({ length: 'm', gospa: 'm', gospa_localization: 'm^2', confirmation_latency: 's' });
+		expect(body.units).toMatchObject({
+			length: 'm',
+			gospa: 'm',
+			gospa_localization: 'm^2',
+			confirmation_latency: 's'
+		});
 		const s = body.summary;
-		if (!s.gospa || !s.cardinality || !s.nees || !s.tracks?.confirmationLatency) throw new Error('summary figures missing');
+		if (!s.gospa || !s.cardinality || !s.nees || !s.tracks?.confirmationLatency)
+			throw new Error('summary figures missing');
 		expect(s.frames).toBe(5);
 		expect(s.framesWithTruth).toBe(4);
 		// GOSPA over f0, f2, f3, f4: √76, 0, √76, √50.5
@@ -252,7 +298,15 @@ describe('GET /api/runs/{id}/summary', () => {
 		// Σg = 6, matches 4, misses 2, false positives 5, mismatches 1 → MOTA = 1 − 8/6; MOTP = (1 + 1 + 0.5 + 0.5)/4.
 		const k = s.tracks;
 		const latency = s.tracks.confirmationLatency;
-		expect(k).toMatchObject({ frames: 4, truthCount: 6, matches: 4, misses: 2, falsePositives: 5, idSwitches: 1, fragmentations: 0 });
+		expect(k).toMatchObject({
+			frames: 4,
+			truthCount: 6,
+			matches: 4,
+			misses: 2,
+			falsePositives: 5,
+			idSwitches: 1,
+			fragmentations: 0
+		});
 		expect(k.mota).toBeCloseTo(1 - 8 / 6, 12);
 		expect(k.motp).toBeCloseTo(0.75, 12);
 		// T1 first matched at f4 (0.4 s after it appeared), T2 at once; ghost never matched, lived f0..f4
@@ -262,9 +316,13 @@ describe('GET /api/runs/{id}/summary', () => {
 		expect(k.falseTracks.count).toBe(1);
 		expect(k.falseTracks.meanLifetime).toBeCloseTo(0.4, 5);
 
-		const again = (await (await viewer.json(`/api/runs/${runId}/summary`, 'GET')).json()) as { recomputed: boolean };
+		const again = (await (await viewer.json(`/api/runs/${runId}/summary`, 'GET')).json()) as {
+			recomputed: boolean;
+		};
 		expect(again.recomputed).toBe(false);
-		const [cache] = await sqlClient()<{ summary: { frames: number; settings: { c: number } } }[]>`select summary from runs where id = ${runId}`;
+		const [cache] = await sqlClient()<
+			{ summary: { frames: number; settings: { c: number } } }[]
+		>`select summary from runs where id = ${runId}`;
 		expect(cache.summary).toMatchObject({ frames: 5, settings: { c: 10 } });
 	});
 });
@@ -273,7 +331,10 @@ describe('/api/runs/{id}/settings', () => {
 	it('shows the defaults and an idle recompute for a run never configured', async () => {
 		const res = await viewer.json(`/api/runs/${runId}/settings`, 'GET');
 		expect(res.status).toBe(200);
-		const body = (await res.json()) as { settings: { c: number; zones: { name: string }[] }; recompute: { state: string } };
+		const body = (await res.json()) as {
+			settings: { c: number; zones: { name: string }[] };
+			recompute: { state: string };
+		};
 		expect(body.settings.c).toBe(10);
 		expect(body.settings.zones.map((z) => z.name)).toEqual([lane]);
 		expect(body.recompute).toMatchObject({ state: 'idle', progress: 0 });
@@ -289,12 +350,23 @@ describe('/api/runs/{id}/settings', () => {
 			zones: [{ name: 'kerb', coords: 'world', x: [5, 1], y: [0, 1] }]
 		});
 		expect(bad.status).toBe(422);
-		const details = ((await bad.json()) as { error: { details: Record<string, string> } }).error.details;
+		const details = ((await bad.json()) as { error: { details: Record<string, string> } }).error
+			.details;
 		expect(Object.keys(details).sort()).toEqual(['c', 'p', 'zones.0.x']);
-		const weights = await engineer.json(`/api/runs/${runId}/settings`, 'PUT', { ...good, distance: 'state', weights: [1, 1] });
+		const weights = await engineer.json(`/api/runs/${runId}/settings`, 'PUT', {
+			...good,
+			distance: 'state',
+			weights: [1, 1]
+		});
 		expect(weights.status).toBe(422);
-		expect(Object.keys(((await weights.json()) as { error: { details: Record<string, string> } }).error.details)).toEqual(['weights']);
-		expect((await engineer.json(`/api/runs/${runId}/settings`, 'PUT', 'not json{')).status).toBe(400);
+		expect(
+			Object.keys(
+				((await weights.json()) as { error: { details: Record<string, string> } }).error.details
+			)
+		).toEqual(['weights']);
+		expect((await engineer.json(`/api/runs/${runId}/settings`, 'PUT', 'not json{')).status).toBe(
+			400
+		);
 	});
 
 	it('saves settings for an engineer and recomputes the stored columns in the background', async () => {
@@ -308,15 +380,26 @@ describe('/api/runs/{id}/settings', () => {
 		};
 		const res = await engineer.json(`/api/runs/${runId}/settings`, 'PUT', settings);
 		expect(res.status).toBe(200);
-		expect(((await res.json()) as { recompute: { state: string } }).recompute.state).toMatch(/queued|running|done/);
+		expect(((await res.json()) as { recompute: { state: string } }).recompute.state).toMatch(
+			/queued|running|done/
+		);
 
 		const deadline = Date.now() + 30_000;
-		let status: { state: string; progress: number; error?: string } = { state: 'queued', progress: 0 };
+		let status: { state: string; progress: number; error?: string } = {
+			state: 'queued',
+			progress: 0
+		};
 		const seen = new Set<string>();
 		while (status.state !== 'done' && status.state !== 'failed') {
-			expect(Date.now(), `recompute still ${status.state} at ${status.progress} %`).toBeLessThan(deadline);
+			expect(Date.now(), `recompute still ${status.state} at ${status.progress} %`).toBeLessThan(
+				deadline
+			);
 			await new Promise((r) => setTimeout(r, 200));
-			status = ((await (await viewer.json(`/api/runs/${runId}/settings`, 'GET')).json()) as { recompute: typeof status }).recompute;
+			status = (
+				(await (await viewer.json(`/api/runs/${runId}/settings`, 'GET')).json()) as {
+					recompute: typeof status;
+				}
+			).recompute;
 			seen.add(status.state);
 		}
 		expect(status).toMatchObject({ state: 'done', progress: 100 });
@@ -329,7 +412,10 @@ describe('/api/runs/{id}/settings', () => {
 		// kerb zone, f0: only b (40, 1) with σx = σy = 1 lies near it:
 		// P(inside) = (Φ(5) − Φ(−5)) · (Φ((2 − 1)/1) − Φ((−2 − 1)/1)) (independent axes), r = 1.
 		expect(f0.zones).not.toHaveProperty(lane);
-		expect(f0.zones.kerb).toBeCloseTo((normalCdf(5) - normalCdf(-5)) * (normalCdf(1) - normalCdf(-3)), 9);
+		expect(f0.zones.kerb).toBeCloseTo(
+			(normalCdf(5) - normalCdf(-5)) * (normalCdf(1) - normalCdf(-3)),
+			9
+		);
 		const [stored] = await sqlClient()<{ gospa: number; nees_count: number }[]>`
 			select gospa, nees_count from frames where run_id = ${runId} and seq = 0`;
 		expect(stored.gospa).toBeCloseTo(Math.sqrt(14.5), 12);
@@ -345,5 +431,47 @@ describe('/api/runs/{id}/settings', () => {
 		expect(summary.settings.c).toBe(3);
 		// c = 3: f0 and f3 miss T1 and have a and ghost false; f4 keeps both pairs, ghost false
 		expect(summary.summary.gospa).toMatchObject({ missedTotal: 2, falseTotal: 5 });
+	});
+});
+
+describe('Metric settings & summary page', () => {
+	it('shows the figures and download links to every reader, the form only to those who configure', async () => {
+		const page = await viewer.get(`/runs/${runId}/metrics`);
+		expect(page.status).toBe(200);
+		const html = await page.text();
+		expect(html).toContain('Metric settings &amp; summary');
+		expect(html).toContain(`/api/runs/${runId}/metrics?format=csv`);
+		expect(html).not.toContain('Save and recompute');
+		const own = await (await engineer.get(`/runs/${runId}/metrics`)).text();
+		expect(own).toContain('Save and recompute');
+	});
+
+	it('refuses a bad form with the field errors in place, and a viewer with 403', async () => {
+		const fields = {
+			c: 'abc',
+			p: '0.5',
+			distance: 'position',
+			nees: 'position',
+			motThreshold: '2',
+			weights: ''
+		};
+		const zone = {
+			zone_name: 'kerb',
+			zone_coords: 'world',
+			zone_xmin: '5',
+			zone_xmax: '1',
+			zone_ymin: '0',
+			zone_ymax: '1',
+			zone_angle: ''
+		};
+		const res = await engineer.postForm(`/runs/${runId}/metrics?/settings`, { ...fields, ...zone });
+		expect(res.status).toBe(400);
+		const html = await res.text();
+		expect(html).toContain('data-field-error="c"');
+		expect(html).toContain('data-field-error="p"');
+		expect(html).toContain('data-field-error="zones.0"');
+		expect(
+			(await viewer.postForm(`/runs/${runId}/metrics?/settings`, { ...fields, c: '5' })).status
+		).toBe(403);
 	});
 });

@@ -6,7 +6,9 @@ export type Cell = string | number | null | undefined;
 export function csvCell(value: Cell): string {
 	if (value === null || value === undefined) return '';
 	if (typeof value === 'number') return Number.isFinite(value) ? String(value) : '';
-	return /[",\r\n]/.test(value) || value !== value.trim() ? `"${value.replaceAll('"', '""')}"` : value;
+	return /[",\r\n]/.test(value) || value !== value.trim()
+		? `"${value.replaceAll('"', '""')}"`
+		: value;
 }
 
 export function csvLine(cells: readonly Cell[]): string {

@@ -32,7 +32,9 @@ async function text(chunks: AsyncGenerator<string>): Promise<string> {
 
 describe('metric row encodings', () => {
 	it('JSON: one document with the head, all rows, and no next page without a limit', async () => {
-		const body = JSON.parse(await text(jsonChunks({ unit: 'm' }, { rows: batches([row(0), row(1)], [row(2)]) })));
+		const body = JSON.parse(
+			await text(jsonChunks({ unit: 'm' }, { rows: batches([row(0), row(1)], [row(2)]) }))
+		);
 		expect(body.unit).toBe('m');
 		expect(body.rows.map((r: MetricRow) => r.seq)).toEqual([0, 1, 2]);
 		expect(body.rows[0]).toEqual(row(0));
@@ -40,7 +42,9 @@ describe('metric row encodings', () => {
 	});
 
 	it('JSON: stops at the limit and names the next seq, across batch edges', async () => {
-		const body = JSON.parse(await text(jsonChunks({}, { rows: batches([row(0), row(1)], [row(2), row(3)]), limit: 2 })));
+		const body = JSON.parse(
+			await text(jsonChunks({}, { rows: batches([row(0), row(1)], [row(2), row(3)]), limit: 2 }))
+		);
 		expect(body.rows.map((r: MetricRow) => r.seq)).toEqual([0, 1]);
 		expect(body.next_from_seq).toBe(2);
 		const empty = JSON.parse(await text(jsonChunks({}, { rows: batches() })));
@@ -49,7 +53,9 @@ describe('metric row encodings', () => {
 
 	it('CSV: header with zone columns, full-precision numbers, empty cells for null', async () => {
 		const csv = await text(
-			csvChunks(['ego lane', 'kerb, left'], { rows: batches([row(0, { n_truth: null, gospa: null, t: 0.1 + 0.2, zones: {} })], [row(1)]) })
+			csvChunks(['ego lane', 'kerb, left'], {
+				rows: batches([row(0, { n_truth: null, gospa: null, t: 0.1 + 0.2, zones: {} })], [row(1)])
+			})
 		);
 		const lines = csv.split('\r\n');
 		expect(lines[0]).toBe(

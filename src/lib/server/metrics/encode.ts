@@ -8,7 +8,10 @@ export interface RowSource {
 	limit?: number;
 }
 
-async function* limited(source: RowSource, onMore: (nextSeq: number) => void): AsyncGenerator<MetricRow[]> {
+async function* limited(
+	source: RowSource,
+	onMore: (nextSeq: number) => void
+): AsyncGenerator<MetricRow[]> {
 	let left = source.limit ?? Number.POSITIVE_INFINITY;
 	for await (const batch of source.rows) {
 		if (batch.length > left) {
@@ -22,7 +25,10 @@ async function* limited(source: RowSource, onMore: (nextSeq: number) => void): A
 }
 
 /** `{...head, rows: [...], next_from_seq}`, written as the rows arrive. */
-export async function* jsonChunks(head: Record<string, unknown>, source: RowSource): AsyncGenerator<string> {
+export async function* jsonChunks(
+	head: Record<string, unknown>,
+	source: RowSource
+): AsyncGenerator<string> {
 	let next: number | null = null;
 	const open = JSON.stringify(head);
 	yield `${open.slice(0, -1)}${open.length > 2 ? ',' : ''}"rows":[`;
@@ -39,7 +45,10 @@ export async function* jsonChunks(head: Record<string, unknown>, source: RowSour
 }
 
 /** Header `seq,t,…,zone:<name>…`, then one line per row; an absent value is an empty cell. */
-export async function* csvChunks(zoneNames: readonly string[], source: RowSource): AsyncGenerator<string> {
+export async function* csvChunks(
+	zoneNames: readonly string[],
+	source: RowSource
+): AsyncGenerator<string> {
 	yield csvLine([...metricColumns, ...zoneNames.map((z) => `zone:${z}`)]);
 	for await (const batch of limited(source, () => {})) {
 		let text = '';

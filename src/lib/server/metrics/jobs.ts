@@ -1,12 +1,13 @@
 /**
  * Background metric jobs on pg-boss (its own schema in Skein's database). The process that should
  * do the work calls startMetricJobs once; any process may enqueue, and one that has not started
- * the jobs opens a send-only connection on first use.
+ * the jobs starts pg-boss without a worker on first use.
  */
 import PgBoss from 'pg-boss';
+import type { MetricSettings } from '$lib/metrics';
 import { logger } from '$server/log';
 import { recomputeRun } from './recompute';
-import { markFailed } from './settings';
+import { markFailed, saveSettings } from './settings';
 
 export const RECOMPUTE_QUEUE = 'skein-metrics-recompute';
 
@@ -26,10 +27,19 @@ function databaseUrl(url?: string): string {
 
 function boss(url?: string): Promise<PgBoss> {
 	booting ??= (async () => {
-		const b = new PgBoss({ connectionString: databaseUrl(url), max: 3, application_name: 'skein-jobs' });
+		const b = new PgBoss({
+			connectionString: databaseUrl(url),
+			max: 3,
+			application_name: 'skein-jobs'
+		});
 		b.on('error', (err) => logger.error({ err }, 'metric jobs: pg-boss error'));
 		await b.start();
-		await b.createQueue(RECOMPUTE_QUEUE, { name: RECOMPUTE_QUEUE, retryLimit: 2, retryDelay: 5, expireInSeconds: 3600 });
+		await b.createQueue(RECOMPUTE_QUEUE, {
+			name: RECOMPUTE_QUEUE,
+			retryLimit: 2,
+			retryDelay: 5,
+			expireInSeconds: 3600
+		});
 		return b;
 	})();
 	booting.catch(() => (booting = undefined));
@@ -68,4 +78,18 @@ export async function stopMetricJobs(): Promise<void> {
 export async function enqueueRecompute(runId: string, version: number): Promise<void> {
 	const b = await boss();
 	await b.send(RECOMPUTE_QUEUE, { runId, version } satisfies RecomputeJob);
+}
+
+/** Saves a run's settings and queues the recompute they call for; a failure to queue is recorded on the run. */
+export async function saveSettingsAndRecompute(
+	runId: string,
+	settings: MetricSettings
+): Promise<void> {
+	const version = await saveSettings(runId, settings);
+	try {
+		await enqueueRecompute(runId, version);
+	} catch (err) {
+		await markFailed(runId, version, 'could not queue the recompute');
+		throw err;
+	}
 }

@@ -1,8 +1,13 @@
 /** Query parameters of the metrics endpoint. */
 import { z } from 'zod';
 
-const seq = z.coerce.number({ error: 'must be a number' }).int('must be an integer').min(0, 'must be ≥ 0');
-const finite = z.coerce.number({ error: 'must be a number' }).refine(Number.isFinite, 'must be a finite number');
+const seq = z.coerce
+	.number({ error: 'must be a number' })
+	.int('must be an integer')
+	.min(0, 'must be ≥ 0');
+const finite = z.coerce
+	.number({ error: 'must be a number' })
+	.refine(Number.isFinite, 'must be a finite number');
 
 export const metricsQuery = z
 	.object({

@@ -12,7 +12,11 @@ export type RecomputeOutcome = 'done' | 'superseded' | 'gone';
 
 const sleep = (ms: number) => new Promise((r) => setTimeout(r, ms));
 
-export async function recomputeRun(runId: string, version: number, batch = 500): Promise<RecomputeOutcome> {
+export async function recomputeRun(
+	runId: string,
+	version: number,
+	batch = 500
+): Promise<RecomputeOutcome> {
 	const sql = sqlClient();
 	const [claim] = await sql<{ saved_at_ms: number }[]>`
 		update metric_recomputes set state = 'running', progress = 0, error = null, updated_at = now()

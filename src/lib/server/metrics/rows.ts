@@ -31,7 +31,11 @@ export const metricColumns = [
 type StoredRow = Omit<MetricRow, 'zones'> & { zones: Record<string, number> | null };
 
 /** Rows as stored at ingest (or by the last recompute). */
-export async function* storedRows(run: MetricRun, range: SeqRange, batch = 1000): AsyncGenerator<MetricRow[]> {
+export async function* storedRows(
+	run: MetricRun,
+	range: SeqRange,
+	batch = 1000
+): AsyncGenerator<MetricRow[]> {
 	const sql = sqlClient();
 	const cursor = sql<StoredRow[]>`
 		select seq::float8 as seq, t, n_truth, n_estimates, n_measurements, expected_cardinality, gospa, gospa_localization,
@@ -46,7 +50,11 @@ export async function* storedRows(run: MetricRun, range: SeqRange, batch = 1000)
 }
 
 /** Rows computed now from the stored frames with `settings`; nothing is written. */
-export async function* computedRows(run: MetricRun, settings: MetricSettings, range: SeqRange): AsyncGenerator<MetricRow[]> {
+export async function* computedRows(
+	run: MetricRun,
+	settings: MetricSettings,
+	range: SeqRange
+): AsyncGenerator<MetricRow[]> {
 	const ctx = frameContext(run, settings);
 	for await (const frames of storedFrames(run, range)) {
 		yield frames.map(({ seq, t, frame }) => ({ seq, t, ...frameMetrics(frame, ctx) }));

@@ -1,11 +1,18 @@
 /** A run as the metric code needs it, and its stored frames decoded back into sets, a batch at a time. */
-import { defaultMetricSettings, parseMetricSettings, type FrameContext, type MetricSettings } from '$lib/metrics';
+import {
+	defaultMetricSettings,
+	parseMetricSettings,
+	type FrameContext,
+	type MetricSettings
+} from '$lib/metrics';
 import { fromMsgpack } from '$lib/protocol/codec';
 import type { Frame, FrameMessage } from '$lib/protocol/types';
 import { sqlClient } from '$server/db';
 
 export interface MetricRun {
 	id: string;
+	name: string;
+	status: 'live' | 'ended' | 'interrupted' | 'imported';
 	stateFields: string[];
 	coords: 'world' | 'ego';
 	lengthUnit: string;
@@ -16,6 +23,8 @@ export interface MetricRun {
 
 interface RunRow {
 	id: string;
+	name: string;
+	status: MetricRun['status'];
 	state_fields: string[];
 	coords: 'world' | 'ego';
 	length_unit: string;
@@ -34,12 +43,14 @@ export function settingsOf(stored: unknown, stateFields: readonly string[]): Met
 export async function metricRun(id: string): Promise<MetricRun | null> {
 	const sql = sqlClient();
 	const [row] = await sql<RunRow[]>`
-		select id, state_fields, coords, length_unit, frame_count::float8 as frame_count,
+		select id, name, status, state_fields, coords, length_unit, frame_count::float8 as frame_count,
 			next_seq::float8 as next_seq, metric_settings
 		from runs where id = ${id}`;
 	if (!row) return null;
 	return {
 		id: row.id,
+		name: row.name,
+		status: row.status,
 		stateFields: row.state_fields,
 		coords: row.coords,
 		lengthUnit: row.length_unit,
@@ -49,7 +60,10 @@ export async function metricRun(id: string): Promise<MetricRun | null> {
 	};
 }
 
-export function frameContext(run: MetricRun, settings: MetricSettings = run.settings): FrameContext {
+export function frameContext(
+	run: MetricRun,
+	settings: MetricSettings = run.settings
+): FrameContext {
 	return { stateFields: run.stateFields, coords: run.coords, settings };
 }
 
@@ -79,7 +93,11 @@ export interface StoredFrame {
  * Frames of a run in seq order, `batch` at a time through a server-side cursor, so memory stays
  * bounded however long the run is. One row more than `limit` is read, to tell whether more follow.
  */
-export async function* storedFrames(run: MetricRun, range: SeqRange, batch = 500): AsyncGenerator<StoredFrame[]> {
+export async function* storedFrames(
+	run: MetricRun,
+	range: SeqRange,
+	batch = 500
+): AsyncGenerator<StoredFrame[]> {
 	const sql = sqlClient();
 	const cursor = sql<{ seq: number; t: number; data: Buffer }[]>`
 		select seq::float8 as seq, t, data from frames

@@ -14,7 +14,14 @@ export interface RecomputeStatus {
 
 export async function recomputeStatus(runId: string): Promise<RecomputeStatus> {
 	const sql = sqlClient();
-	const [row] = await sql<{ state: Exclude<RecomputeState, 'idle'>; progress: number; error: string | null; updated_ms: number }[]>`
+	const [row] = await sql<
+		{
+			state: Exclude<RecomputeState, 'idle'>;
+			progress: number;
+			error: string | null;
+			updated_ms: number;
+		}[]
+	>`
 		select state, progress, error, (extract(epoch from updated_at) * 1000)::float8 as updated_ms
 		from metric_recomputes where run_id = ${runId}`;
 	if (!row) return { state: 'idle', progress: 0 };

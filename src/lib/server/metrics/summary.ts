@@ -95,10 +95,18 @@ export function runSummary(run: MetricRun): Promise<{ cached: CachedSummary; fre
 	return pending;
 }
 
+/** The cached summary if it still matches the run, else null; one small read. */
+export async function freshSummary(run: MetricRun): Promise<CachedSummary | null> {
+	const [row] = await sqlClient()<
+		{ summary: unknown }[]
+	>`select summary from runs where id = ${run.id}`;
+	return row && isFresh(row.summary, run) ? row.summary : null;
+}
+
 async function summaryOnce(run: MetricRun): Promise<{ cached: CachedSummary; fresh: boolean }> {
 	const sql = sqlClient();
-	const [row] = await sql<{ summary: unknown }[]>`select summary from runs where id = ${run.id}`;
-	if (row && isFresh(row.summary, run)) return { cached: row.summary, fresh: false };
+	const hit = await freshSummary(run);
+	if (hit) return { cached: hit, fresh: false };
 	const cached: CachedSummary = {
 		format: FORMAT,
 		settings: run.settings,

@@ -17,14 +17,23 @@ export const GET: RequestHandler = endpoint(async ({ params, url, request }) => 
 	if (!run) throw new ApiError('not_found', 'No such run');
 
 	const onRequest = q.c !== undefined || q.p !== undefined;
-	const settings = onRequest ? { ...run.settings, c: q.c ?? run.settings.c, p: q.p ?? run.settings.p } : run.settings;
+	const settings = onRequest
+		? { ...run.settings, c: q.c ?? run.settings.c, p: q.p ?? run.settings.p }
+		: run.settings;
 	const range = { fromSeq: q.from_seq, toSeq: q.to_seq, limit: q.limit };
-	const source = { rows: onRequest ? computedRows(run, settings, range) : storedRows(run, range), limit: q.limit };
+	const source = {
+		rows: onRequest ? computedRows(run, settings, range) : storedRows(run, range),
+		limit: q.limit
+	};
 
-	const csv = q.format ? q.format === 'csv' : (request.headers.get('accept') ?? '').includes('text/csv');
+	const csv = q.format
+		? q.format === 'csv'
+		: (request.headers.get('accept') ?? '').includes('text/csv');
 	if (csv) {
 		const zoneNames = settings.zones.map((z) => z.name);
-		if (!onRequest) for (const name of await storedZoneNames(run, range)) if (!zoneNames.includes(name)) zoneNames.push(name);
+		if (!onRequest)
+			for (const name of await storedZoneNames(run, range))
+				if (!zoneNames.includes(name)) zoneNames.push(name);
 		return new Response(byteStream(csvChunks(zoneNames, source)), {
 			headers: {
 				'content-type': 'text/csv; charset=utf-8',
@@ -32,11 +41,18 @@ export const GET: RequestHandler = endpoint(async ({ params, url, request }) => 
 			}
 		});
 	}
-	const head = { run_id: run.id, unit: run.lengthUnit, source: onRequest ? 'computed' : 'stored', settings };
+	const head = {
+		run_id: run.id,
+		unit: run.lengthUnit,
+		source: onRequest ? 'computed' : 'stored',
+		settings
+	};
 	return new Response(byteStream(jsonChunks(head, source)), {
 		headers: {
 			'content-type': 'application/json',
-			...(q.format === 'json' ? { 'content-disposition': `attachment; filename="skein-run-${run.id}-metrics.json"` } : {})
+			...(q.format === 'json'
+				? { 'content-disposition': `attachment; filename="skein-run-${run.id}-metrics.json"` }
+				: {})
 		}
 	});
 });

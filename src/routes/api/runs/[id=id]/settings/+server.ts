@@ -1,9 +1,9 @@
 import { json } from '@sveltejs/kit';
 import { defaultMetricSettings } from '$lib/metrics';
 import { ApiError, endpoint } from '$server/api';
-import { enqueueRecompute } from '$server/metrics/jobs';
+import { saveSettingsAndRecompute } from '$server/metrics/jobs';
 import { metricRun } from '$server/metrics/run';
-import { checkSettings, markFailed, recomputeStatus, saveSettings } from '$server/metrics/settings';
+import { checkSettings, recomputeStatus } from '$server/metrics/settings';
 import type { RequestHandler } from './$types';
 
 async function runOr404(id: string) {
@@ -35,12 +35,6 @@ export const PUT: RequestHandler = endpoint(async ({ params, request }) => {
 	}
 	const checked = checkSettings(body, run.stateFields);
 	if (!checked.ok) throw new ApiError('invalid', 'Some settings are not valid', checked.errors);
-	const version = await saveSettings(run.id, checked.settings);
-	try {
-		await enqueueRecompute(run.id, version);
-	} catch (err) {
-		await markFailed(run.id, version, 'could not queue the recompute');
-		throw err;
-	}
+	await saveSettingsAndRecompute(run.id, checked.settings);
 	return json({ settings: checked.settings, recompute: await recomputeStatus(run.id) });
 });
