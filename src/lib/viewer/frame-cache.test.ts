@@ -94,9 +94,12 @@ describe('FrameCache', () => {
 		expect(cache.stepFrom(9.9, 1)).toBeNull();
 	});
 
-	it('refetches a failed window when it is wanted again', async () => {
+	it('refetches a failed window when it is wanted again after a pause', async () => {
 		let calls = 0;
+		let now = 0;
 		const cache = new FrameCache({
+			now: () => now,
+			retryMs: 1000,
 			firstT: T0,
 			duration: 10,
 			windowS: 5,
@@ -106,6 +109,9 @@ describe('FrameCache', () => {
 		cache.want(0, 1, 0, 0);
 		await new Promise((r) => setTimeout(r, 0));
 		expect(cache.lookup(0)).toBeNull();
+		cache.want(0, 1, 0, 0); // too soon: no tight retry loop
+		expect(calls).toBe(1);
+		now = 1500;
 		cache.want(0, 1, 0, 0);
 		await new Promise((r) => setTimeout(r, 0));
 		expect(cache.lookup(0)!.frame.seq).toBe(0);

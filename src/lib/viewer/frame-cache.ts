@@ -21,11 +21,15 @@ export interface FrameCacheOptions {
 	fetchWindow: FetchWindow;
 	/** called whenever a window arrives */
 	onChange?: () => void;
+	/** a failed window is fetched again when wanted after this long; default 2 s */
+	retryMs?: number;
+	now?: () => number;
 }
 
 interface Window {
 	index: number;
 	state: 'loading' | 'ready' | 'failed';
+	failedAt: number;
 	frames: Frame[];
 	/** run-relative t of each frame, ascending */
 	times: Float64Array;
@@ -47,6 +51,10 @@ export class FrameCache {
 
 	constructor(opts: FrameCacheOptions) {
 		this.#o = opts;
+	}
+
+	#now() {
+		return (this.#o.now ?? Date.now)();
 	}
 
 	get windowCount() {
@@ -99,7 +107,8 @@ export class FrameCache {
 		if (w) {
 			this.#windows.delete(index);
 			this.#windows.set(index, w);
-			if (w.state === 'failed') this.#load(index);
+			// a failed window is retried after a pause, never in a tight loop
+			if (w.state === 'failed' && this.#now() - w.failedAt >= (this.#o.retryMs ?? 2000)) this.#load(index);
 			return;
 		}
 		this.#load(index);
@@ -107,7 +116,7 @@ export class FrameCache {
 
 	#load(index: number) {
 		const abort = new AbortController();
-		const w: Window = { index, state: 'loading', frames: [], times: new Float64Array(0), abort };
+		const w: Window = { index, state: 'loading', failedAt: 0, frames: [], times: new Float64Array(0), abort };
 		this.#windows.set(index, w);
 		const from = this.#o.firstT + index * this.#o.windowS;
 		const to = from + this.#o.windowS;
@@ -124,6 +133,7 @@ export class FrameCache {
 			() => {
 				if (this.#windows.get(index) !== w) return;
 				w.state = 'failed';
+				w.failedAt = this.#now();
 				this.#o.onChange?.();
 			}
 		);

@@ -59,6 +59,10 @@ export class RunPlayer {
 						fetchWindow: (from, to, signal) => this.#fetch(from, to, signal),
 						onChange: () => this.refresh()
 					});
+	}
+
+	/** starts fetching; called from the browser only (never during server rendering) */
+	start() {
 		this.refresh();
 	}
 
@@ -132,7 +136,8 @@ export class RunPlayer {
 
 	pause() {
 		this.playing = false;
-		cancelAnimationFrame(this.#raf);
+		if (this.#raf) cancelAnimationFrame(this.#raf);
+		this.#raf = 0;
 	}
 
 	faster(step: 1 | -1) {
