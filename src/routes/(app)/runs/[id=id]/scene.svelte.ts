@@ -41,7 +41,7 @@ export interface Pickable {
 declare global {
 	interface Window {
 		/** the scene's render counter, read by the viewer benchmark */
-		__skeinScene?: { frames: number; draws: number };
+		__skeinScene?: { frames: number; draws: number; seq: number | null; t: number | null; drawnAt: number };
 	}
 }
 
@@ -141,7 +141,7 @@ export class SceneManager {
 		this.#g.scale = root.addChild(new Graphics());
 		this.#scaleText = root.addChild(new Text({ text: '', style: { fontFamily: 'IBM Plex Mono', fontSize: 11, fill: 0x1c2230 } }));
 
-		window.__skeinScene ??= { frames: 0, draws: 0 };
+		window.__skeinScene ??= { frames: 0, draws: 0, seq: null, t: null, drawnAt: 0 };
 		app.ticker.add(() => {
 			window.__skeinScene!.frames++;
 			if (this.#dirty) this.#draw();
@@ -345,6 +345,10 @@ export class SceneManager {
 		this.#labels.end();
 		this.#zoneText.end();
 		this.picks = picks;
+		const stats = window.__skeinScene!;
+		stats.seq = inp?.frame?.seq ?? null;
+		stats.t = inp?.frame?.t ?? null;
+		stats.drawnAt = performance.now();
 	}
 
 	#drawGrid(W: number, H: number, sx: (x: number) => number, sy: (y: number) => number) {
