@@ -16,7 +16,8 @@ export interface PinRow {
 	status: string;
 	created_by: string | null;
 	created_by_name: string | null;
-	created_at: Date;
+	/** a Date or an ISO string, depending on the client's type parsers */
+	created_at: Date | string;
 }
 
 const pinColumns = `p.id, p.run_id, r.name as run_name, p.t, p.seq::float8 as seq, p.title, p.note, p.category, p.severity,

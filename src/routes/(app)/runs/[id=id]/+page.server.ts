@@ -28,7 +28,7 @@ export const load = (async ({ params, locals }) => {
 			frameRate: run.frame_rate_hz,
 			metricSettings: (run.metric_settings as Record<string, unknown> | null) ?? null
 		},
-		pins: pins.map((p) => ({ ...p, created_at: p.created_at.toISOString() })),
+		pins: pins.map((p) => ({ ...p, created_at: new Date(p.created_at).toISOString() })),
 		canPin: can(locals.user?.role, 'pins:create')
 	};
 }) satisfies PageServerLoad;
