@@ -3,14 +3,13 @@ import { sqlClient } from '../src/lib/server/db';
 import { PostgresIngestStore } from '../src/lib/server/ingest/store';
 import { applyRetention, createPartitionsAhead } from '../src/lib/server/ingest/partitions';
 import { logger } from '../src/lib/server/log';
+import { startMetricJobs, stopMetricJobs } from '../src/lib/server/metrics/jobs';
+import { keyRevokedChannel } from '../src/lib/server/rigs';
 import { closeSocketsForKey, createIngestEndpoint } from './ingest/endpoint';
 
 export interface AttachedSockets {
 	close(): Promise<void>;
 }
-
-/** Revocations are announced on this PostgreSQL channel, so every app process closes the key's sockets. */
-export const keyRevokedChannel = 'skein_feed_key_revoked';
 
 const hourMs = 3_600_000;
 
@@ -58,11 +57,13 @@ export function attachSockets(server: Server): AttachedSockets {
 	];
 	for (const t of timers) t.unref();
 	void maintain().catch((err) => logger.error({ err }, 'maintenance failed'));
+	void startMetricJobs(process.env.DATABASE_URL).catch((err) => logger.error({ err }, 'metric jobs failed to start'));
 
 	return {
 		async close() {
 			for (const t of timers) clearTimeout(t);
 			await ingest.close();
+			await stopMetricJobs();
 			await (await listening).unlisten();
 		}
 	};

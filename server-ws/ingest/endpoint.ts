@@ -124,7 +124,7 @@ export class IngestEndpoint {
 					refuse(socket, 503, 'server is shutting down');
 					return;
 				}
-				this.#wss.handleUpgrade(req, socket, head, (ws) => this.#accept(ws, resolution.rig));
+				this.#wss.handleUpgrade(req, socket, head, (ws) => this.#accept(ws, resolution.rig, req.socket.remoteAddress ?? null));
 			},
 			(error: unknown) => {
 				this.#ctx.onError(error, 'resolving a feed key failed');
@@ -134,7 +134,7 @@ export class IngestEndpoint {
 		return true;
 	}
 
-	#accept(ws: WebSocket, rig: RigRef): void {
+	#accept(ws: WebSocket, rig: RigRef, address: string | null): void {
 		const conn: Connection = {
 			ws,
 			alive: true,
@@ -158,7 +158,7 @@ export class IngestEndpoint {
 			conn.session.disconnected();
 		});
 		this.#store
-			.touchKey(rig.keyId)
+			.touchKey(rig.keyId, address)
 			.catch((error: unknown) => this.#ctx.onError(error, 'touchKey failed'));
 	}
 

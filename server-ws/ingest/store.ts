@@ -84,6 +84,6 @@ export interface IngestStore {
 
 	setRunState(runId: string, state: IngestRunState): Promise<void>;
 
-	/** Records that the key was used now; called once per accepted connection, failures are ignored. */
-	touchKey(keyId: string): Promise<void>;
+	/** Records that the key was used now, and from where; called once per accepted connection, failures are ignored. */
+	touchKey(keyId: string, address: string | null): Promise<void>;
 }

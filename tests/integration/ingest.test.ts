@@ -2,6 +2,8 @@
  * Ingest protocol v1 against the real app, real sockets and PostgreSQL: what is acknowledged is stored,
  * exactly once, and reads back as sent (absent and empty sets apart); bad input is quarantined.
  */
+import { spawnSync } from 'node:child_process';
+import { resolve } from 'node:path';
 import { beforeAll, describe, expect, inject, it } from 'vitest';
 import WebSocket from 'ws';
 import { SkeinRigClient } from '$lib/protocol/client';
@@ -77,10 +79,11 @@ describe('ingest into PostgreSQL', () => {
 		expect(rows[1].n_truth).toBeNull(); // truth not reported
 		expect(rows[1].gospa).toBeNull();
 		expect(rows[2].n_measurements).toBe(0); // reported and empty
-		const [key] = await sqlClient()<{ frames_received: number; last_used_at: Date | null }[]>`
-			select frames_received::int, last_used_at from feed_keys where id = ${rig.keyId}`;
+		const [key] = await sqlClient()<{ frames_received: number; last_used_at: Date | null; last_used_ip: string | null }[]>`
+			select frames_received::int, last_used_at, last_used_ip from feed_keys where id = ${rig.keyId}`;
 		expect(key.frames_received).toBe(300);
 		expect(key.last_used_at).not.toBeNull();
+		expect(key.last_used_ip).toMatch(/127\.0\.0\.1/);
 	});
 
 	it('reads frames in pages, by seq and by time, in JSON and MessagePack', async () => {
@@ -179,6 +182,28 @@ describe('ingest into PostgreSQL', () => {
 		expect(c.reason).toBe('key revoked');
 		expect(c.at - revokedAt).toBeLessThan(1000);
 		expect((await refused(rig.secret)).body).toBe('feed key revoked\n');
+	});
+
+	it('stores a batch exactly once even when it is committed twice (binary COPY falls back to insert-or-skip)', async () => {
+		// run in plain Node: postgres.js parameter serialisation misbehaves inside Vitest's module runner
+		const rig = await makeRigWithKey('twice');
+		const r = spawnSync(process.execPath, ['--import', 'tsx', 'tests/support/commit-twice.ts', rig.rigId, rig.keyId], {
+			cwd: resolve(import.meta.dirname, '../..'),
+			encoding: 'utf8',
+			env: process.env
+		});
+		expect(r.status, r.stderr).toBe(0);
+		const { runId, sent } = JSON.parse(r.stdout.trim().split('\n').at(-1)!) as { runId: string; sent: Frame[] };
+		const rows = await sqlClient()<{ seq: number; n: number }[]>`
+			select seq::int, count(*)::int as n from frames where run_id = ${runId} group by seq order by seq`;
+		expect(rows).toEqual([
+			{ seq: 0, n: 1 },
+			{ seq: 1, n: 1 },
+			{ seq: 2, n: 1 }
+		]);
+		const [run] = await sqlClient()<{ frame_count: number }[]>`select frame_count::int from runs where id = ${runId}`;
+		expect(run.frame_count).toBe(3);
+		expect((await stored(runId)).frames).toEqual(sent);
 	});
 
 	it('creates a missing day partition when a frame needs it', async () => {

@@ -39,7 +39,7 @@ beforeAll(async () => {
 		data: Buffer.from([0x80]),
 		n_truth: 3 + (k % 4),
 		gospa: gospaAt(k),
-		zones: JSON.stringify({ 'ego lane 0–20 m': (k % 10) / 10 })
+		zones: sql.json({ 'ego lane 0–20 m': (k % 10) / 10 })
 	}));
 	for (let i = 0; i < N; i += 500) await sql`insert into frames ${sql(rows.slice(i, i + 500))}`;
 });

@@ -28,10 +28,10 @@ export interface RunningApp {
 	stop(signal?: NodeJS.Signals): Promise<void>;
 }
 
-export async function startApp(env: Record<string, string> = {}): Promise<RunningApp> {
+export async function startApp(env: Record<string, string> = {}, nodeArgs: string[] = []): Promise<RunningApp> {
 	const port = env.PORT ? Number(env.PORT) : await freePort();
 	let out = '';
-	const child = spawn(process.execPath, ['--import', 'tsx', resolve(root, 'server-ws/server.ts')], {
+	const child = spawn(process.execPath, [...nodeArgs, '--import', 'tsx', resolve(root, 'server-ws/server.ts')], {
 		cwd: root,
 		env: { ...process.env, PORT: String(port), HOST: '127.0.0.1', NODE_ENV: 'production', MAIL_CATCHER_PORT: '0', LOG_LEVEL: 'warn', ...env },
 		stdio: ['ignore', 'pipe', 'pipe']

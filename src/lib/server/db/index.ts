@@ -13,28 +13,36 @@ function databaseUrl(): string {
 }
 
 let client: postgres.Sql | undefined;
+let drizzleClient: postgres.Sql | undefined;
 let database: Database | undefined;
 
-/** The raw postgres.js client, for COPY, streaming and hand-written SQL. */
+function connect(): postgres.Sql {
+	return postgres(databaseUrl(), { max: Number(process.env.DATABASE_POOL ?? 10), onnotice: () => {} });
+}
+
+/**
+ * The raw postgres.js client, for COPY, streaming and hand-written SQL. It is not the client Drizzle uses:
+ * Drizzle replaces its client's type serializers and parsers (dates and json pass through as text), which
+ * would break Date and sql.json() parameters here.
+ */
 export function sqlClient(): postgres.Sql {
-	client ??= postgres(databaseUrl(), {
-		max: Number(process.env.DATABASE_POOL ?? 10),
-		onnotice: () => {}
-	});
+	client ??= connect();
 	return client;
 }
 
 /** The typed Drizzle client. */
 export function db(): Database {
-	database ??= drizzle(sqlClient(), { schema: { ...schema, frames } });
+	drizzleClient ??= connect();
+	database ??= drizzle(drizzleClient, { schema: { ...schema, frames } });
 	return database;
 }
 
 export async function closeDb(): Promise<void> {
-	const c = client;
+	const clients = [client, drizzleClient];
 	client = undefined;
+	drizzleClient = undefined;
 	database = undefined;
-	await c?.end({ timeout: 5 });
+	await Promise.all(clients.map((c) => c?.end({ timeout: 5 })));
 }
 
 export { schema, frames };

@@ -14,8 +14,9 @@ import type {
 	OpenRunResult,
 	QuarantinedToStore
 } from '../../../../server-ws/ingest/store';
-import { hashSecret } from '$server/auth/tokens';
+import { resolveFeedKey } from '$server/rigs';
 import { sqlClient } from '$server/db';
+import { BinaryCopyWriter } from './copy-binary';
 import { ensurePartitionsFor } from './partitions';
 
 interface RunContext {
@@ -67,16 +68,8 @@ export class PostgresIngestStore implements IngestStore {
 	}
 
 	async resolveKey(key: string): Promise<KeyResolution> {
-		const rows = await this.#sql<
-			{ id: string; rig_id: string; revoked_at: Date | null; expires_at: Date | null; archived_at: Date | null }[]
-		>`select k.id, k.rig_id, k.revoked_at, k.expires_at, r.archived_at
-		  from feed_keys k join rigs r on r.id = k.rig_id where k.key_hash = ${hashSecret(key)}`;
-		const k = rows[0];
-		if (!k) return { ok: false, reason: 'unknown feed key' };
-		if (k.revoked_at) return { ok: false, reason: 'feed key revoked' };
-		if (k.expires_at && k.expires_at.getTime() <= Date.now()) return { ok: false, reason: 'feed key expired' };
-		if (k.archived_at) return { ok: false, reason: 'rig archived' };
-		return { ok: true, rig: { rigId: k.rig_id, keyId: k.id } };
+		const r = await resolveFeedKey(key);
+		return r.ok ? { ok: true, rig: { rigId: r.rigId, keyId: r.keyId } } : r;
 	}
 
 	async openRun(req: OpenRunRequest): Promise<OpenRunResult> {
@@ -92,7 +85,7 @@ export class PostgresIngestStore implements IngestStore {
 				insert into runs (rig_id, client_run_id, name, state_fields, measurement_fields, coords, length_unit, tags, notes, status, metric_settings)
 				values (${req.rig.rigId}, ${req.clientRunId}, ${spec.name}, ${spec.state_fields}, ${spec.measurement_fields},
 				        ${spec.coords ?? 'world'}, ${spec.units?.length ?? 'm'}, ${spec.tags ?? []}, ${spec.notes ?? ''}, 'live',
-				        ${this.#sql.json(defaultMetricSettings as unknown as postgres.JSONValue)})
+				        ${JSON.stringify(defaultMetricSettings)}::text::jsonb)
 				on conflict (rig_id, client_run_id) do nothing
 				returning *`;
 			row = inserted[0];
@@ -147,30 +140,42 @@ export class PostgresIngestStore implements IngestStore {
 		const lastT = frames.length ? frames[frames.length - 1].t : null;
 		const firstT = frames.length ? frames[0].t : null;
 
-		await this.#sql.begin(async (tx) => {
-			let stored = 0;
-			if (rows.length) {
-				const res = await tx`insert into frames ${tx(rows)} on conflict do nothing`;
-				stored = res.count;
-			}
-			if (quarantined.length) {
-				await tx`insert into quarantine ${tx(
-					quarantined.map((q) => ({ run_id: runId, seq: q.seq, reason: q.reason, raw: Buffer.from(q.raw.buffer, q.raw.byteOffset, q.raw.byteLength) }))
-				)}`;
-			}
-			await tx`
-				update runs set
-					next_seq = greatest(next_seq, ${maxSeq + 1}),
-					frame_count = frame_count + ${stored},
-					quarantine_count = quarantine_count + ${quarantined.length},
-					first_t = coalesce(first_t, ${firstT}),
-					last_t = coalesce(${lastT}, last_t),
-					last_seen_at = now()
-				where id = ${runId}`;
-			if (ctx.keyId && stored) {
-				await tx`update feed_keys set frames_received = frames_received + ${stored} where id = ${ctx.keyId}`;
-			}
-		});
+		const commit = (viaCopy: boolean) =>
+			this.#sql.begin(async (tx) => {
+				let stored = 0;
+				if (rows.length && viaCopy) {
+					await copyFrames(tx, rows);
+					stored = rows.length;
+				} else if (rows.length) {
+					const values = rows.map((r) => ({ ...r, zones: r.zones === null ? null : tx.json(r.zones as postgres.JSONValue) }));
+					const res = await tx`insert into frames ${tx(values)} on conflict do nothing`;
+					stored = res.count;
+				}
+				if (quarantined.length) {
+					await tx`insert into quarantine ${tx(
+						quarantined.map((q) => ({ run_id: runId, seq: q.seq, reason: q.reason, raw: Buffer.from(q.raw.buffer, q.raw.byteOffset, q.raw.byteLength) }))
+					)}`;
+				}
+				await tx`
+					update runs set
+						next_seq = greatest(next_seq, ${maxSeq + 1}),
+						frame_count = frame_count + ${stored},
+						quarantine_count = quarantine_count + ${quarantined.length},
+						first_t = coalesce(first_t, ${firstT}),
+						last_t = coalesce(${lastT}, last_t),
+						last_seen_at = now()
+					where id = ${runId}`;
+				if (ctx.keyId && stored) {
+					await tx`update feed_keys set frames_received = frames_received + ${stored} where id = ${ctx.keyId}`;
+				}
+			});
+		// COPY cannot skip rows that exist, and postgres.js leaves a failed COPY unsettled; so COPY only when
+		// none of these seqs is stored yet (the normal case), and insert-or-skip otherwise.
+		const seqs = frames.map((f) => f.seq);
+		const [dup] = seqs.length
+			? await this.#sql<{ n: number }[]>`select count(*)::int as n from frames where run_id = ${runId} and seq = any(${seqs}::bigint[])`
+			: [{ n: 0 }];
+		await commit(dup.n === 0);
 	}
 
 	async setRunState(runId: string, state: IngestRunState): Promise<void> {
@@ -182,12 +187,55 @@ export class PostgresIngestStore implements IngestStore {
 		}
 	}
 
-	async touchKey(keyId: string, address?: string): Promise<void> {
+	async touchKey(keyId: string, address: string | null): Promise<void> {
 		await this.#sql`update feed_keys set last_used_at = now(), last_used_ip = coalesce(${address ?? null}, last_used_ip) where id = ${keyId}`;
 	}
 }
 
 type FrameRow = Record<string, string | number | Buffer | Date | null | postgres.JSONValue>;
+
+const frameCopyColumns =
+	'run_id, seq, t, ts, data, n_measurements, n_estimates, n_truth, expected_cardinality, gospa, gospa_localization, gospa_missed, gospa_false, ospa, nees_mean, nees_count, zones';
+
+const copyDeadlineMs = 10_000;
+
+async function copyFrames(tx: postgres.TransactionSql, rows: FrameRow[]): Promise<void> {
+	const w = new BinaryCopyWriter();
+	for (const r of rows) {
+		w.row([
+			{ kind: 'uuid', value: r.run_id as string },
+			{ kind: 'int8', value: r.seq as number },
+			{ kind: 'float8', value: r.t as number },
+			{ kind: 'timestamptz', value: r.ts as Date },
+			{ kind: 'bytea', value: r.data as Buffer },
+			{ kind: 'int4', value: r.n_measurements as number | null },
+			{ kind: 'int4', value: r.n_estimates as number | null },
+			{ kind: 'int4', value: r.n_truth as number | null },
+			{ kind: 'float8', value: r.expected_cardinality as number | null },
+			{ kind: 'float8', value: r.gospa as number | null },
+			{ kind: 'float8', value: r.gospa_localization as number | null },
+			{ kind: 'int4', value: r.gospa_missed as number | null },
+			{ kind: 'int4', value: r.gospa_false as number | null },
+			{ kind: 'float8', value: r.ospa as number | null },
+			{ kind: 'float8', value: r.nees_mean as number | null },
+			{ kind: 'int4', value: r.nees_count as number | null },
+			{ kind: 'jsonb', value: r.zones === null ? null : JSON.stringify(r.zones) }
+		]);
+	}
+	const stream = await tx.unsafe(`copy frames (${frameCopyColumns}) from stdin (format binary)`).writable();
+	// A COPY the server rejects never settles in postgres.js: give up after a while, so the transaction rolls
+	// back and the rig's connection closes (1011) and resumes, instead of the run hanging.
+	let timer: ReturnType<typeof setTimeout> | undefined;
+	try {
+		await new Promise<void>((resolve, reject) => {
+			timer = setTimeout(() => reject(new Error('COPY into frames did not complete')), copyDeadlineMs);
+			stream.on('error', reject);
+			stream.end(w.finish(), () => resolve());
+		});
+	} finally {
+		clearTimeout(timer);
+	}
+}
 
 function frameRow(runId: string, f: FrameToStore, ctx: RunContext): FrameRow {
 	const m = frameMetrics(f.frame, { stateFields: ctx.stateFields, settings: ctx.settings, coords: ctx.coords });

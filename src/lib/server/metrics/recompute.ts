@@ -49,7 +49,7 @@ export async function recomputeRun(
 				expected_cardinality = v.expected_cardinality, gospa = v.gospa, gospa_localization = v.gospa_localization,
 				gospa_missed = v.gospa_missed, gospa_false = v.gospa_false, ospa = v.ospa, nees_mean = v.nees_mean,
 				nees_count = v.nees_count, zones = v.zones
-			from jsonb_to_recordset(${JSON.stringify(values)}::jsonb) as v(
+			from jsonb_to_recordset(${JSON.stringify(values)}::text::jsonb) as v(
 				seq bigint, n_measurements integer, n_estimates integer, n_truth integer, expected_cardinality float8,
 				gospa float8, gospa_localization float8, gospa_missed integer, gospa_false integer, ospa float8,
 				nees_mean float8, nees_count integer, zones jsonb)

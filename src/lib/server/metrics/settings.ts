@@ -59,7 +59,7 @@ export function checkSettings(
 export async function saveSettings(runId: string, settings: MetricSettings): Promise<number> {
 	const sql = sqlClient();
 	return sql.begin(async (tx) => {
-		await tx`update runs set metric_settings = ${JSON.stringify(settings)}::jsonb where id = ${runId}`;
+		await tx`update runs set metric_settings = ${JSON.stringify(settings)}::text::jsonb where id = ${runId}`;
 		const [row] = await tx<{ version: number }[]>`
 			insert into metric_recomputes (run_id) values (${runId})
 			on conflict (run_id) do update set version = metric_recomputes.version + 1, state = 'queued', progress = 0,

@@ -116,6 +116,6 @@ async function summaryOnce(run: MetricRun): Promise<{ cached: CachedSummary; fre
 		summary: await computeSummary(run)
 	};
 	// Frames that arrived meanwhile make this cache stale at once, and the next request recomputes.
-	await sql`update runs set summary = ${JSON.stringify(cached)}::jsonb where id = ${run.id}`;
+	await sql`update runs set summary = ${JSON.stringify(cached)}::text::jsonb where id = ${run.id}`;
 	return { cached, fresh: true };
 }

@@ -51,7 +51,7 @@ export async function createPin(runId: string, userId: string, pin: NewPin): Pro
 		const [row] = await tx<{ id: string }[]>`
 			insert into pins (run_id, t, seq, title, note, category, severity, view, created_by)
 			values (${runId}, ${pin.t}, ${frame?.seq ?? null}, ${pin.title}, ${pin.note}, ${pin.category}, ${pin.severity},
-				${JSON.stringify(pin.view)}::jsonb, ${userId})
+				${JSON.stringify(pin.view)}::text::jsonb, ${userId})
 			returning id`;
 		await tx`update runs set kept = true where id = ${runId}`;
 		const [out] = await tx<PinRow[]>`
