@@ -6,7 +6,7 @@
 import type { IngestLimits, SessionTiming } from '../../src/lib/protocol/limits';
 import type { Frame, IngestRunState, RunSpec } from '../../src/lib/protocol/types';
 import { runDims, type RunDims } from '../../src/lib/protocol/validate';
-import type { PubSub, RunEvent } from '../pubsub';
+import { frameMetricsOf, type PubSub, type RunEvent } from '../pubsub';
 import type { FrameToStore, IngestStore, QuarantinedToStore } from './store';
 
 export interface ChannelDeps {
@@ -81,6 +81,7 @@ export class RunChannel {
 	}
 
 	accept(frame: FrameToStore): void {
+		this.#deps.store.prepareFrame?.(this.runId, frame);
 		this.#pendingFrames.push(frame);
 		this.expected = frame.seq + 1;
 		this.lastT = frame.t;
@@ -153,7 +154,7 @@ export class RunChannel {
 		}
 		for (const f of frames) {
 			const frame: Frame = f.frame;
-			pubsub.publish(this.runId, { kind: 'frame', runId: this.runId, seq: f.seq, t: f.t, frame });
+			pubsub.publish(this.runId, { kind: 'frame', runId: this.runId, seq: f.seq, t: f.t, frame, metrics: frameMetricsOf(frame) });
 		}
 	}
 

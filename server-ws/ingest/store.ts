@@ -82,6 +82,12 @@ export interface IngestStore {
 		quarantined: QuarantinedToStore[]
 	): Promise<void>;
 
+	/**
+	 * Optional: called as each valid frame is accepted, before it is batched, so a store can do its per-frame
+	 * work (derived columns) while the previous batch's commit is waiting on the database.
+	 */
+	prepareFrame?(runId: string, frame: FrameToStore): void;
+
 	setRunState(runId: string, state: IngestRunState): Promise<void>;
 
 	/** Records that the key was used now, and from where; called once per accepted connection, failures are ignored. */

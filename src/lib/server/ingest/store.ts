@@ -14,6 +14,7 @@ import type {
 	OpenRunResult,
 	QuarantinedToStore
 } from '../../../../server-ws/ingest/store';
+import { noteFrameMetrics } from '../../../../server-ws/pubsub';
 import { resolveFeedKey } from '$server/rigs';
 import { sqlClient } from '$server/db';
 import { BinaryCopyWriter } from './copy-binary';
@@ -62,6 +63,7 @@ function specOf(row: RunRow): RunSpec {
 export class PostgresIngestStore implements IngestStore {
 	#sql: postgres.Sql;
 	#runs = new Map<string, RunContext>();
+	#prepared = new WeakMap<FrameToStore, FrameRow>();
 
 	constructor(sql: postgres.Sql = sqlClient()) {
 		this.#sql = sql;
@@ -129,10 +131,16 @@ export class PostgresIngestStore implements IngestStore {
 		return ctx;
 	}
 
+	/** Per-frame metrics are computed as frames arrive, overlapping the previous batch's commit. */
+	prepareFrame(runId: string, frame: FrameToStore): void {
+		const ctx = this.#runs.get(runId);
+		if (ctx && !this.#prepared.has(frame)) this.#prepared.set(frame, frameRow(runId, frame, ctx));
+	}
+
 	async commitFrames(runId: string, frames: FrameToStore[], quarantined: QuarantinedToStore[]): Promise<void> {
 		if (frames.length === 0 && quarantined.length === 0) return;
 		const ctx = await this.#context(runId);
-		const rows = frames.map((f) => frameRow(runId, f, ctx));
+		const rows = frames.map((f) => this.#prepared.get(f) ?? frameRow(runId, f, ctx));
 		await ensurePartitionsFor(this.#sql, frames.map((f) => f.t));
 		let maxSeq = -1;
 		for (const f of frames) maxSeq = Math.max(maxSeq, f.seq);
@@ -239,6 +247,7 @@ async function copyFrames(tx: postgres.TransactionSql, rows: FrameRow[]): Promis
 
 function frameRow(runId: string, f: FrameToStore, ctx: RunContext): FrameRow {
 	const m = frameMetrics(f.frame, { stateFields: ctx.stateFields, settings: ctx.settings, coords: ctx.coords });
+	noteFrameMetrics(f.frame, m);
 	return {
 		run_id: runId,
 		seq: f.seq,
