@@ -3,10 +3,12 @@
  * The in-process implementation is enough for one server process; a multi-process deployment
  * swaps in one backed by PostgreSQL LISTEN/NOTIFY or similar behind the same interface.
  */
+import type { FrameMetrics } from '../src/lib/metrics/frame';
 import type { Frame, IngestRunState } from '../src/lib/protocol/types';
 
 export type RunEvent =
-	| { kind: 'frame'; runId: string; seq: number; t: number; frame: Frame }
+	/** `metrics`: the per-frame columns the store computed and committed; null when it computed none */
+	| { kind: 'frame'; runId: string; seq: number; t: number; frame: Frame; metrics: FrameMetrics | null }
 	| { kind: 'quarantined'; runId: string; seq: number; reason: string }
 	| { kind: 'state'; runId: string; state: IngestRunState };
 
@@ -59,4 +61,20 @@ const SHARED = Symbol.for('skein.pubsub.runs');
 export function sharedPubSub(): PubSub {
 	const holder = globalThis as { [SHARED]?: PubSub };
 	return (holder[SHARED] ??= createInProcessPubSub());
+}
+
+const METRICS = Symbol.for('skein.pubsub.committed-metrics');
+
+function committedMetrics(): WeakMap<Frame, FrameMetrics> {
+	const holder = globalThis as { [METRICS]?: WeakMap<Frame, FrameMetrics> };
+	return (holder[METRICS] ??= new WeakMap());
+}
+
+/** The store notes the metrics it computed for a frame, so the publisher hands them on without recomputing. */
+export function noteFrameMetrics(frame: Frame, metrics: FrameMetrics): void {
+	committedMetrics().set(frame, metrics);
+}
+
+export function frameMetricsOf(frame: Frame): FrameMetrics | null {
+	return committedMetrics().get(frame) ?? null;
 }
