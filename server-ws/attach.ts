@@ -6,6 +6,8 @@ import { logger } from '../src/lib/server/log';
 import { startMetricJobs, stopMetricJobs } from '../src/lib/server/metrics/jobs';
 import { keyRevokedChannel } from '../src/lib/server/rigs';
 import { closeSocketsForKey, createIngestEndpoint } from './ingest/endpoint';
+import { postgresLiveDirectory } from './live/directory';
+import { createLiveEndpoint } from './live/endpoint';
 
 export interface AttachedSockets {
 	close(): Promise<void>;
@@ -13,7 +15,7 @@ export interface AttachedSockets {
 
 const hourMs = 3_600_000;
 
-/** Attaches Skein's socket endpoints (ingest; live comes with the viewer) to an HTTP server. */
+/** Attaches Skein's socket endpoints (ingest, live viewers) to an HTTP server. */
 export function attachSockets(server: Server): AttachedSockets {
 	const sql = sqlClient();
 	const ingest = createIngestEndpoint({
@@ -27,8 +29,14 @@ export function attachSockets(server: Server): AttachedSockets {
 		onError: (err, context) => logger.error({ err, context }, 'ingest error')
 	});
 
+	const live = createLiveEndpoint({
+		directory: postgresLiveDirectory,
+		onError: (err, context) => logger.error({ err, context }, 'live viewer error')
+	});
+
 	server.on('upgrade', (req, socket, head) => {
 		if (ingest.handleUpgrade(req, socket, head)) return;
+		if (live.handleUpgrade(req, socket, head)) return;
 		// not ours: in dev, Vite's own HMR socket handles its path; elsewhere nobody does
 		if (!(req.url ?? '').startsWith('/@') && server.listenerCount('upgrade') === 1) socket.destroy();
 	});
@@ -62,6 +70,7 @@ export function attachSockets(server: Server): AttachedSockets {
 	return {
 		async close() {
 			for (const t of timers) clearTimeout(t);
+			await live.close();
 			await ingest.close();
 			await stopMetricJobs();
 			await (await listening).unlisten();

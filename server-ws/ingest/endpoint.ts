@@ -242,7 +242,7 @@ function bearerKey(header: string | undefined): string | null {
 	return match === null ? null : match[1];
 }
 
-function refuse(socket: Duplex, status: number, reason: string): void {
+export function refuse(socket: Duplex, status: number, reason: string): void {
 	if (socket.destroyed) return;
 	const body = `${reason.replace(/[\r\n]+/g, ' ').slice(0, 200)}\n`;
 	const headers = [
@@ -256,7 +256,7 @@ function refuse(socket: Duplex, status: number, reason: string): void {
 	socket.end(`${headers.join('\r\n')}\r\n\r\n${body}`);
 }
 
-function closeWithin(ws: WebSocket, code: number, reason: string): void {
+export function closeWithin(ws: WebSocket, code: number, reason: string): void {
 	if (ws.readyState === ws.CLOSED) return;
 	ws.close(code, reason);
 	setTimeout(() => {
