@@ -12,7 +12,7 @@ export interface RunListFilter {
 }
 
 const runColumns = `r.id, r.rig_id, g.name as rig_name, r.client_run_id, r.name, r.state_fields, r.measurement_fields, r.coords,
-	r.length_unit, r.tags, r.notes, r.status, r.started_at, r.ended_at, r.first_t, r.last_t, r.next_seq::float8 as next_seq,
+	r.length_unit, r.tags, r.notes, r.status, r.started_at, coalesce(to_timestamp(r.first_t), r.started_at) as recorded_at, r.ended_at, r.first_t, r.last_t, r.next_seq::float8 as next_seq,
 	r.frame_count::float8 as frame_count, r.quarantine_count::float8 as quarantine_count, r.kept, r.metric_settings`;
 
 type RunRow = Record<string, unknown> & { first_t: number | null; last_t: number | null; frame_count: number };
@@ -102,7 +102,8 @@ export interface RunSearchFilter extends RunListFilter {
 }
 
 const sortSql: Record<NonNullable<RunSearchFilter['sort']>, string> = {
-	started: 'r.started_at',
+	// the device time of the first frame: a run recorded last week and uploaded today started last week
+	started: 'coalesce(to_timestamp(r.first_t), r.started_at)',
 	name: 'lower(r.name)',
 	rig: 'lower(g.name)',
 	duration: '(r.last_t - r.first_t)',
@@ -122,8 +123,8 @@ export async function searchRuns(f: RunSearchFilter) {
 			where (${f.rigId ?? null}::uuid is null or r.rig_id = ${f.rigId ?? null}::uuid)
 			  and (${f.status ?? null}::text is null or r.status::text = ${f.status ?? null}::text)
 			  and (${f.tag ?? null}::text is null or ${f.tag ?? null}::text = any(r.tags))
-			  and (${f.since ?? null}::date is null or r.started_at >= ${f.since ?? null}::date)
-			  and (${f.until ?? null}::date is null or r.started_at < ${f.until ?? null}::date + 1)
+			  and (${f.since ?? null}::date is null or coalesce(to_timestamp(r.first_t), r.started_at) >= ${f.since ?? null}::date)
+			  and (${f.until ?? null}::date is null or coalesce(to_timestamp(r.first_t), r.started_at) < ${f.until ?? null}::date + 1)
 			  and (${like}::text is null or r.name ilike ${like} or g.name ilike ${like} or r.notes ilike ${like}
 			       or exists (select 1 from unnest(r.tags) tg where tg ilike ${like}))
 		order by (r.status = 'live') desc, ${sql.unsafe(order)}

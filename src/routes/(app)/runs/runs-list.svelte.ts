@@ -8,6 +8,8 @@ export interface RunListRow {
 	name: string;
 	status: 'live' | 'ended' | 'interrupted' | 'imported';
 	started_at: string;
+	/** device time of the first frame, or when the run was opened */
+	recorded_at: string;
 	duration_s: number | null;
 	frame_count: number;
 	gospa_mean: number | null;
