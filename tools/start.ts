@@ -4,15 +4,27 @@
  * Prints the URL and the demo sign-in.
  */
 import { spawn } from 'node:child_process';
+import { existsSync, readFileSync, writeFileSync } from 'node:fs';
 import { resolve } from 'node:path';
 import { closeDb } from '../src/lib/server/db';
 import { applyMigrations } from '../src/lib/server/db/migrate';
+import { resolveFeedKey } from '../src/lib/server/rigs';
 import { buildIfStale } from './lib/build';
 import { demoCluster, ensureDatabase, startCluster } from './lib/pg';
 import { demoAdmin, demoKey, liveDemo, seedDemoPeople, seedDemoRuns } from './seed';
 import { runSimulatedRig } from './sim/rig';
 
 const root = resolve(import.meta.dirname, '..');
+
+/** The live demo rig keeps one feed key across restarts (kept, like the cluster, in the git-ignored .data/). */
+async function liveDemoKey(): Promise<string> {
+	const file = resolve(root, '.data', 'demo-live.key');
+	const kept = existsSync(file) ? readFileSync(file, 'utf8').trim() : '';
+	if (kept && (await resolveFeedKey(kept)).ok) return kept;
+	const key = await demoKey(liveDemo.rig, 'live demo');
+	writeFileSync(file, key + '\n', { mode: 0o600 });
+	return key;
+}
 const port = Number(process.env.PORT ?? 3000);
 const log = (line: string) => process.stdout.write(`[demo] ${line}\n`);
 
@@ -58,7 +70,7 @@ console.log(
 );
 
 if (process.env.SKEIN_DEMO_LIVE !== 'off') {
-	const key = await demoKey(liveDemo.rig, 'live demo');
+	const key = await liveDemoKey();
 	log(`${liveDemo.rig} is streaming live (${liveDemo.scenario}); SKEIN_DEMO_LIVE=off turns this off`);
 	for (let seed = Math.floor(Date.now() / 1000) % 100_000; !stopping.signal.aborted; seed++) {
 		try {
