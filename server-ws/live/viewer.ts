@@ -1,8 +1,10 @@
 /**
  * One viewer's outbox. A slow viewer never builds a queue: there is one slot per kind of message (the newest
- * frame, the newest state, the newest pong) and one message in flight; the next goes out when ws reports the
- * previous one written to the kernel (the send callback). A frame that is replaced before it was sent is
- * counted and the count travels with the next frame sent (`skipped`).
+ * frame, the newest state, the newest pong). Slots are written to the socket while ws holds less than
+ * `highWater` bytes that the kernel has not taken (`bufferedAmount`); past that, the next goes out when a write
+ * completes (the send callback). A viewer keeping up gets every frame, even of a burst committed together; one
+ * that does not read has at most highWater + one message in ws and one frame waiting here. A frame replaced
+ * before it was sent is counted, and the count travels with the next frame sent (`skipped`).
  */
 import type { WebSocket } from 'ws';
 import type { LiveViewerStats } from '../../src/lib/viewer/live-protocol';
@@ -29,15 +31,18 @@ export class LiveViewer {
 	#ws: ViewerSocket | null = null;
 	#slots = new Map<Slot, Pending>();
 	#order = 0;
-	#inFlight = false;
+	/** writes ws has not completed */
+	#inFlight = 0;
+	#highWater: number;
 	/** frames replaced before being sent, since the last frame sent */
 	#skipped = 0;
 	#quarantined = 0;
 	/** frame bodies do not carry counts; the board's messages are sent as they are */
 	#countsInFrames: boolean;
 
-	constructor(opts: { runId: string | null; sessionId: string; countsInFrames: boolean }) {
+	constructor(opts: { runId: string | null; sessionId: string; countsInFrames: boolean; highWater?: number }) {
 		this.runId = opts.runId;
+		this.#highWater = opts.highWater ?? 64 * 1024;
 		this.sessionId = opts.sessionId;
 		this.#countsInFrames = opts.countsInFrames;
 	}
@@ -45,8 +50,8 @@ export class LiveViewer {
 	/** Starts sending: the hello first, then whatever waited while the socket opened. */
 	attach(ws: ViewerSocket, hello: Uint8Array) {
 		this.#ws = ws;
-		this.#inFlight = true;
 		this.#write(hello);
+		this.#pump();
 	}
 
 	detach() {
@@ -89,28 +94,31 @@ export class LiveViewer {
 	}
 
 	#pump() {
-		const ws = this.#ws;
-		if (this.#inFlight || ws === null || ws.readyState !== ws.OPEN) return;
-		let next: [Slot, Pending] | null = null;
-		for (const entry of this.#slots) if (next === null || entry[1].order < next[1].order) next = entry;
-		if (next === null) return;
-		const [slot, p] = next;
-		this.#slots.delete(slot);
-		let bytes = p.bytes;
-		if (slot === 'frame' && this.#countsInFrames) {
-			bytes = frameWithCounts(p.bytes, this.#skipped, this.#quarantined);
-			this.#skipped = 0;
-			this.#quarantined = 0;
+		for (;;) {
+			const ws = this.#ws;
+			if (ws === null || ws.readyState !== ws.OPEN || this.#slots.size === 0) return;
+			if (this.#inFlight > 0 && ws.bufferedAmount >= this.#highWater) return;
+			let next: [Slot, Pending] | null = null;
+			for (const entry of this.#slots) if (next === null || entry[1].order < next[1].order) next = entry;
+			if (next === null) return;
+			const [slot, p] = next;
+			this.#slots.delete(slot);
+			let bytes = p.bytes;
+			if (slot === 'frame' && this.#countsInFrames) {
+				bytes = frameWithCounts(p.bytes, this.#skipped, this.#quarantined);
+				this.#skipped = 0;
+				this.#quarantined = 0;
+			}
+			this.#write(bytes, p.after);
 		}
-		this.#inFlight = true;
-		this.#write(bytes, p.after);
 	}
 
 	#write(bytes: Uint8Array, after?: () => void) {
 		const ws = this.#ws;
 		if (ws === null) return;
+		this.#inFlight++;
 		ws.send(bytes, { binary: true }, (err) => {
-			this.#inFlight = false;
+			this.#inFlight--;
 			if (err) return;
 			this.sent++;
 			after?.();

@@ -1,0 +1,98 @@
+/**
+ * Following live end to end: a simulated rig streams in real time to the e2e server; the Live board shows its
+ * tile, the tile opens the Run screen following live, frames keep arriving on the scene, a step back pauses
+ * following, `L` returns to live, and the end of the run is said on the screen.
+ */
+import { expect, test, type Page } from '@playwright/test';
+import postgres from 'postgres';
+import { hashSecret, newSecret, secretPrefix } from '../../src/lib/server/auth/tokens';
+import { runSimulatedRig } from '../../tools/sim/rig';
+
+const viewer = { email: 'ruben.alsaker@skein.test', password: 'skein-demo-admin' };
+const base = `http://127.0.0.1:${process.env.E2E_PORT ?? 4317}`;
+const runName = `live follow e2e ${Date.now().toString(36)}`;
+const stop = new AbortController();
+let streaming: Promise<unknown> | null = null;
+
+async function makeRigWithKey(tag: string) {
+	const sql = postgres(process.env.DATABASE_URL!, { max: 1, onnotice: () => {} });
+	try {
+		const name = `${tag}-${Date.now().toString(36)}`;
+		const [rig] = await sql<{ id: string }[]>`insert into rigs (name) values (${name}) returning id`;
+		const secret = newSecret('skf');
+		await sql`insert into feed_keys (rig_id, label, prefix, key_hash) values (${rig.id}, 'e2e', ${secretPrefix(secret)}, ${hashSecret(secret)})`;
+		return { name, secret };
+	} finally {
+		await sql.end();
+	}
+}
+
+async function signIn(page: Page, who: { email: string; password: string }) {
+	await page.goto('/sign-in');
+	await page.getByLabel('E-mail').fill(who.email);
+	await page.getByLabel('Password').fill(who.password);
+	await page.getByRole('button', { name: 'Sign in' }).click();
+	await expect(page.getByTestId('whoami')).toBeVisible();
+}
+
+const sceneSeq = (page: Page) => page.evaluate(() => window.__skeinScene?.seq ?? null);
+const liveSeq = async (page: Page) => Number((await page.getByTestId('live-seq').textContent())!.replace('#', ''));
+
+test.beforeAll(async () => {
+	const rig = await makeRigWithKey('e2e-live');
+	streaming = runSimulatedRig({
+		url: base.replace('http', 'ws') + '/ingest/v1',
+		key: rig.secret,
+		scenario: 'lanternfall-crossing',
+		seed: 11,
+		speed: 1,
+		durationS: 180,
+		runName,
+		signal: stop.signal
+	});
+});
+
+test.afterAll(async () => {
+	stop.abort();
+	await streaming;
+});
+
+test('the Live board shows the streaming run; its tile follows it live on the Run screen until it ends', async ({ page }) => {
+	await signIn(page, viewer);
+	await page.goto('/live');
+	const tile = page.getByTestId('live-tile').filter({ hasText: runName });
+	await expect(tile).toBeVisible({ timeout: 15_000 });
+	await expect(tile.getByTestId('tile-fps')).toHaveText(/\d+(\.\d)? Hz/, { timeout: 10_000 });
+	await expect(tile.getByTestId('tile-estimates')).toHaveText(/^\d+$/);
+
+	await tile.click();
+	await expect(page).toHaveURL(/\/runs\/[0-9a-f-]+\?live/);
+	const bar = page.getByTestId('live-bar');
+	await expect(bar).toHaveAttribute('data-state', 'following', { timeout: 15_000 });
+	const first = await liveSeq(page);
+	await expect.poll(() => liveSeq(page), { timeout: 10_000 }).toBeGreaterThan(first + 5);
+	// the scene draws the frames it follows
+	const drawn = (await sceneSeq(page)) ?? -1;
+	await expect.poll(async () => (await sceneSeq(page)) ?? -1, { timeout: 10_000 }).toBeGreaterThan(drawn);
+	await expect(page.getByTestId('live-latency')).toHaveText(/\d+ ms/);
+	if (process.env.LIVE_SHOTS) await page.screenshot({ path: 'test-results/live-following.png' });
+
+	// a step back into history pauses following; frames still arrive, the scene stays put
+	await page.keyboard.press('ArrowLeft');
+	await expect(bar).toHaveAttribute('data-state', 'live');
+	const held = await sceneSeq(page);
+	const seqWhilePaused = await liveSeq(page);
+	await expect.poll(() => liveSeq(page), { timeout: 10_000 }).toBeGreaterThan(seqWhilePaused + 3);
+	expect(await sceneSeq(page)).toBe(held);
+
+	// L returns to the live edge
+	await page.keyboard.press('l');
+	await expect(bar).toHaveAttribute('data-state', 'following');
+	await expect.poll(async () => (await sceneSeq(page)) ?? -1, { timeout: 10_000 }).toBeGreaterThan(seqWhilePaused);
+
+	// the rig stops: the run ends while watched
+	stop.abort();
+	await streaming;
+	await expect(page.getByTestId('live-notice')).toContainText('ended', { timeout: 15_000 });
+	await expect(bar).toHaveAttribute('data-state', 'ended');
+});
