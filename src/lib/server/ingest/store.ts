@@ -27,6 +27,8 @@ interface RunContext {
 	keyId: string | null;
 	/** when settings were last read: they are re-read after SETTINGS_TTL_MS, so a settings save reaches live runs */
 	settingsReadAt: number;
+	/** 1 + the highest seq known stored or quarantined for the run; null when unknown */
+	committedNext: number | null;
 }
 
 /** How stale a live run's metric settings may get; the recompute job waits this long before it finishes. */
@@ -103,7 +105,8 @@ export class PostgresIngestStore implements IngestStore {
 			coords: row.coords,
 			settings: row.metric_settings ?? defaultMetricSettings,
 			keyId: req.rig.keyId,
-			settingsReadAt: Date.now()
+			settingsReadAt: Date.now(),
+			committedNext: Number(row.next_seq)
 		});
 		return {
 			ok: true,
@@ -121,7 +124,7 @@ export class PostgresIngestStore implements IngestStore {
 		let ctx = this.#runs.get(runId);
 		if (!ctx) {
 			const [row] = await this.#sql<RunRow[]>`select * from runs where id = ${runId}`;
-			ctx = { stateFields: row.state_fields, coords: row.coords, settings: row.metric_settings ?? defaultMetricSettings, keyId: null, settingsReadAt: Date.now() };
+			ctx = { stateFields: row.state_fields, coords: row.coords, settings: row.metric_settings ?? defaultMetricSettings, keyId: null, settingsReadAt: Date.now(), committedNext: null };
 			this.#runs.set(runId, ctx);
 		} else if (Date.now() - ctx.settingsReadAt > SETTINGS_TTL_MS) {
 			const [row] = await this.#sql<Pick<RunRow, 'metric_settings'>[]>`select metric_settings from runs where id = ${runId}`;
@@ -164,26 +167,39 @@ export class PostgresIngestStore implements IngestStore {
 						quarantined.map((q) => ({ run_id: runId, seq: q.seq, reason: q.reason, raw: Buffer.from(q.raw.buffer, q.raw.byteOffset, q.raw.byteLength) }))
 					)}`;
 				}
+				// the run's counters and the key's frame count in one round trip
 				await tx`
-					update runs set
-						next_seq = greatest(next_seq, ${maxSeq + 1}),
-						frame_count = frame_count + ${stored},
-						quarantine_count = quarantine_count + ${quarantined.length},
-						first_t = coalesce(first_t, ${firstT}),
-						last_t = coalesce(${lastT}, last_t),
-						last_seen_at = now()
-					where id = ${runId}`;
-				if (ctx.keyId && stored) {
-					await tx`update feed_keys set frames_received = frames_received + ${stored} where id = ${ctx.keyId}`;
-				}
+					with run as (
+						update runs set
+							next_seq = greatest(next_seq, ${maxSeq + 1}),
+							frame_count = frame_count + ${stored},
+							quarantine_count = quarantine_count + ${quarantined.length},
+							first_t = coalesce(first_t, ${firstT}),
+							last_t = coalesce(${lastT}, last_t),
+							last_seen_at = now()
+						where id = ${runId}
+						returning id
+					)
+					update feed_keys set frames_received = frames_received + ${stored}
+					where id = ${ctx.keyId ?? null}::uuid and ${stored} > 0 and exists (select 1 from run)`;
 			});
 		// COPY cannot skip rows that exist, and postgres.js leaves a failed COPY unsettled; so COPY only when
-		// none of these seqs is stored yet (the normal case), and insert-or-skip otherwise.
+		// none of these seqs can be stored yet: above what this store committed for the run (the normal case),
+		// or, when it does not know, when the database says so; insert-or-skip otherwise.
 		const seqs = frames.map((f) => f.seq);
-		const [dup] = seqs.length
-			? await this.#sql<{ n: number }[]>`select count(*)::int as n from frames where run_id = ${runId} and seq = any(${seqs}::bigint[])`
-			: [{ n: 0 }];
-		await commit(dup.n === 0);
+		let fresh = seqs.length === 0 || (ctx.committedNext !== null && Math.min(...seqs) >= ctx.committedNext);
+		if (!fresh) {
+			const [dup] = await this.#sql<{ n: number }[]>`
+				select count(*)::int as n from frames where run_id = ${runId} and seq = any(${seqs}::bigint[])`;
+			fresh = dup.n === 0;
+		}
+		try {
+			await commit(fresh);
+			ctx.committedNext = Math.max(ctx.committedNext ?? 0, maxSeq + 1);
+		} catch (err) {
+			ctx.committedNext = null; // the outcome is unknown: ask the database next time
+			throw err;
+		}
 	}
 
 	async setRunState(runId: string, state: IngestRunState): Promise<void> {
