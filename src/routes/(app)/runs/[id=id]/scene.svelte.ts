@@ -1,16 +1,21 @@
 /**
- * The scene: a pixi.js application drawing one frame with pooled display objects that are moved, scaled and
- * shown or hidden in place (never rebuilt per frame). Everything is placed in screen space from the camera,
- * so markers keep their pixel size while zooming.
+ * The scene: a pixi.js application drawing one frame. Markers and thin lines go into two batches written in
+ * place (scene-batches.ts); zones, the ego chevron, the grid and labels are a few display objects. Everything is
+ * placed in screen space from the camera, so markers keep their pixel size while zooming. The canvas is
+ * rendered only when something changed.
  */
 import type { Application, BitmapText, Container, Graphics, GraphicsContext, Text } from 'pixi.js';
 import type { FrameEvaluation, Zone } from '$lib/metrics';
-import type { Frame } from '$lib/protocol/types';
+import type { Estimate, Frame } from '$lib/protocol/types';
 import type { Layer } from '$lib/viewer/view';
 import { apply, compose, ellipse, identity, niceLength, rigidBetween, type Coords, type Rigid } from './geometry';
+import { LineBatch, MarkerBatch, rgba, Shape } from './scene-batches';
 
 type Pixi = typeof import('pixi.js');
 
+/** estimate labels are all shown only when at most this many estimates are on screen */
+const LABELS_AT_MOST = 40;
+const TRAIL_STEP_PX = 3;
 const C = { measurement: 0xc07a12, estimate: 0x0e7c74, truth: 0x8e2c66, ego: 0x243b6b, zone: 0x4f46e5 };
 
 export interface SceneInput {
@@ -41,7 +46,7 @@ export interface Pickable {
 declare global {
 	interface Window {
 		/** the scene's render counter, read by the viewer benchmark */
-		__skeinScene?: { frames: number; draws: number; seq: number | null; t: number | null; drawnAt: number };
+		__skeinScene?: { frames: number; draws: number; seq: number | null; t: number | null; drawnAt: number; drawMs: number };
 	}
 }
 
@@ -87,8 +92,10 @@ export class SceneManager {
 	#geo: RunGeometry;
 	#input: SceneInput | null = null;
 	#dirty = true;
-	#g = {} as Record<'grid' | 'zones' | 'trails' | 'links' | 'scale' | 'select', Graphics>;
-	#pools = {} as Record<'cross' | 'dot' | 'ellipse' | 'square' | 'missed' | 'false', Pool<Graphics>>;
+	#g = {} as Record<'grid' | 'zones' | 'scale' | 'select', Graphics>;
+	#gridKey = '';
+	#lines!: LineBatch;
+	#marks!: MarkerBatch;
 	#labels!: Pool<BitmapText>;
 	#zoneText!: Pool<Text>;
 	#scaleText!: Text;
@@ -111,42 +118,35 @@ export class SceneManager {
 			draw(c);
 			return c;
 		};
-		const cross = ctx((c) => c.moveTo(-4, 0).lineTo(4, 0).moveTo(0, -4).lineTo(0, 4).stroke({ width: 1.5, color: C.measurement }));
-		const dot = ctx((c) => c.circle(0, 0, 3.5).fill(C.estimate));
-		const unit = ctx((c) => c.circle(0, 0, 1).stroke({ width: 1, color: C.estimate, pixelLine: true }));
-		const square = ctx((c) => c.rect(-4.5, -4.5, 9, 9).stroke({ width: 1.5, color: C.truth }));
-		const ring = ctx((c) => c.circle(0, 0, 9).stroke({ width: 1.5, color: C.truth }));
-		const dashed = ctx((c) => {
-			for (let k = 0; k < 12; k++) {
-				const a = (k / 12) * Math.PI * 2;
-				c.moveTo(Math.cos(a) * 10, Math.sin(a) * 10).arc(0, 0, 10, a, a + Math.PI / 10);
-			}
-			c.stroke({ width: 1.5, color: C.estimate });
-		});
 		this.#g.grid = root.addChild(new Graphics());
 		this.#g.zones = root.addChild(new Graphics());
 		this.#zoneText = new Pool(layer(), () => new Text({ text: '', style: { fontFamily: 'IBM Plex Mono', fontSize: 11, fill: C.zone } }));
-		this.#g.trails = root.addChild(new Graphics());
-		this.#g.links = root.addChild(new Graphics());
-		const shared = (parent: Container, c: GraphicsContext) => new Pool(parent, () => new Graphics(c));
-		this.#pools.cross = shared(layer(), cross);
-		this.#pools.ellipse = shared(layer(), unit);
-		this.#pools.dot = shared(layer(), dot);
-		this.#pools.square = shared(layer(), square);
-		this.#pools.missed = shared(layer(), ring);
-		this.#pools.false = shared(layer(), dashed);
+		this.#lines = new LineBatch(pixi);
+		root.addChild(this.#lines.mesh);
+		this.#marks = new MarkerBatch(pixi, app.renderer.resolution);
+		root.addChild(this.#marks.mesh);
 		this.#labels = new Pool(layer(), () => new BitmapText({ text: '', style: { fontFamily: 'IBM Plex Mono', fontSize: 10, fill: C.estimate } }));
 		this.#ego = root.addChild(new Graphics(ctx((c) => c.poly([11, 0, -6, 7, -2, 0, -6, -7]).fill(C.ego))));
 		this.#g.select = root.addChild(new Graphics());
 		this.#g.scale = root.addChild(new Graphics());
 		this.#scaleText = root.addChild(new Text({ text: '', style: { fontFamily: 'IBM Plex Mono', fontSize: 11, fill: 0x1c2230 } }));
 
-		window.__skeinScene ??= { frames: 0, draws: 0, seq: null, t: null, drawnAt: 0 };
+		window.__skeinScene ??= { frames: 0, draws: 0, seq: null, t: null, drawnAt: 0, drawMs: 0 };
+		// render on demand: a paused scene costs nothing, a playing one one render per new frame
+		app.ticker.remove(app.render, app);
 		app.ticker.add(() => {
-			window.__skeinScene!.frames++;
-			if (this.#dirty) this.#draw();
+			const stats = window.__skeinScene!;
+			stats.frames++;
+			if (!this.#dirty) return;
+			const t0 = performance.now();
+			this.#draw();
+			app.render();
+			stats.drawMs += performance.now() - t0;
 		});
-		this.#ro = new ResizeObserver(() => this.invalidate());
+		this.#ro = new ResizeObserver(() => {
+			app.renderer.resize(Math.max(1, host.clientWidth), Math.max(1, host.clientHeight));
+			this.invalidate();
+		});
 		this.#ro.observe(host);
 		this.readTheme();
 		this.#bindPointer(app.canvas);
@@ -155,7 +155,16 @@ export class SceneManager {
 	static async create(host: HTMLElement, geo: RunGeometry): Promise<SceneManager> {
 		const pixi = await import('pixi.js');
 		const app = new pixi.Application();
-		await app.init({ resizeTo: host, antialias: true, preference: 'webgl', autoDensity: true, resolution: window.devicePixelRatio || 1 });
+		// multisampling costs software WebGL (SwiftShader, llvmpipe: VMs and remote desktops) half its frame rate;
+		// markers are smoothed by their shader anyway, only thin lines lose their antialiasing there
+		await app.init({
+			width: Math.max(1, host.clientWidth),
+			height: Math.max(1, host.clientHeight),
+			antialias: !softwareWebGL(),
+			preference: 'webgl',
+			autoDensity: true,
+			resolution: window.devicePixelRatio || 1
+		});
 		app.canvas.setAttribute('data-testid', 'scene-canvas');
 		host.appendChild(app.canvas);
 		return new SceneManager(pixi, app, host, geo);
@@ -251,7 +260,12 @@ export class SceneManager {
 		this.#drawGrid(W, H, sx, sy);
 		const inp = this.#input;
 		const picks: Pickable[] = [];
-		for (const g of [this.#g.zones, this.#g.trails, this.#g.links, this.#g.select]) g.clear();
+		const lines = this.#lines;
+		const marks = this.#marks;
+		lines.clear();
+		marks.clear();
+		this.#g.zones.clear();
+		this.#g.select.clear();
 		this.#ego.visible = false;
 		if (inp?.frame) {
 			const f = inp.frame;
@@ -261,72 +275,60 @@ export class SceneManager {
 			this.#drawZones(f, inp, sx, sy);
 			this.#drawTrails(inp, sx, sy);
 
-			if (on('measurements'))
+			if (on('measurements')) {
+				const color = rgba(C.measurement);
 				(f.measurements ?? []).forEach((m, i) => {
 					const [x, y] = apply(tr, m.z[mx], m.z[my]);
-					const g = this.#pools.cross.next();
-					g.position.set(sx(x), sy(y));
-					picks.push({ key: `m#${i}`, kind: 'measurement', index: i, sx: g.x, sy: g.y });
+					const [px, py] = [sx(x), sy(y)];
+					marks.mark(Shape.cross, px, py, color);
+					picks.push({ key: `m#${i}`, kind: 'measurement', index: i, sx: px, sy: py });
 				});
+			}
 
 			const est = f.estimates ?? [];
 			const truth = f.truth ?? [];
-			const estScreen: [number, number][] = [];
-			const truthScreen: [number, number][] = [];
-			est.forEach((e, i) => {
-				const [x, y] = apply(tr, e.x[ix], e.x[iy]);
-				estScreen.push([sx(x), sy(y)]);
-			});
-			truth.forEach((t, i) => {
-				const [x, y] = apply(tr, t.x[ix], t.x[iy]);
-				truthScreen.push([sx(x), sy(y)]);
-				void i;
-			});
+			const screen = (list: { x: number[] }[]) =>
+				list.map((o) => {
+					const [x, y] = apply(tr, o.x[ix], o.x[iy]);
+					return [sx(x), sy(y)] as [number, number];
+				});
+			const estScreen = screen(est);
+			const truthScreen = screen(truth);
 
-			if (on('estimates'))
+			if (on('estimates')) {
 				est.forEach((e, i) => {
 					const [px, py] = estScreen[i];
 					const alpha = Math.max(0.25, e.r ?? 1);
-					const dot = this.#pools.dot.next();
-					dot.position.set(px, py);
-					dot.alpha = alpha;
 					if (e.P && e.P.length === dim * dim) {
 						const el = ellipse(e.P[ix * dim + ix], e.P[ix * dim + iy], e.P[iy * dim + iy], inp.sigma);
-						if (el) {
-							const g = this.#pools.ellipse.next();
-							g.position.set(px, py);
-							g.scale.set(Math.max(el.rx * z, 0.5), Math.max(el.ry * z, 0.5));
-							g.rotation = -(el.angle + tr.rot);
-							g.alpha = alpha;
-						}
+						// an ellipse inside the dot would not show; skip it
+						if (el && el.rx * z >= 3) lines.ellipse(px, py, el.rx * z, Math.max(el.ry * z, 0.5), -(el.angle + tr.rot), rgba(C.estimate, alpha));
 					}
-					if (e.id !== undefined || e.label) {
-						const t = this.#labels.next();
-						const text = e.label ? `${e.id ?? ''} ${e.label}`.trim() : String(e.id);
-						if (t.text !== text) t.text = text;
-						t.position.set(px + 6, py - 14);
-						t.alpha = alpha;
-					}
+					marks.mark(Shape.dot, px, py, rgba(C.estimate, alpha));
 					picks.push({ key: objectKey('e', e.id, i), kind: 'estimate', index: i, sx: px, sy: py });
 				});
+				this.#drawLabels(inp, est, estScreen, W, H);
+			} else this.#labels.end();
 
-			if (on('truth'))
+			if (on('truth')) {
+				const color = rgba(C.truth);
 				truth.forEach((t, i) => {
-					const g = this.#pools.square.next();
-					g.position.set(truthScreen[i][0], truthScreen[i][1]);
-					picks.push({ key: objectKey('t', t.id, i), kind: 'truth', index: i, sx: g.x, sy: g.y });
+					marks.mark(Shape.square, truthScreen[i][0], truthScreen[i][1], color);
+					picks.push({ key: objectKey('t', t.id, i), kind: 'truth', index: i, sx: truthScreen[i][0], sy: truthScreen[i][1] });
 				});
+			}
 
 			const gospa = inp.evaluation?.gospa;
 			if (on('assignment') && gospa) {
-				const links = this.#g.links;
-				for (const [ti, ej] of gospa.pairs) links.moveTo(truthScreen[ti][0], truthScreen[ti][1]).lineTo(estScreen[ej][0], estScreen[ej][1]);
-				links.stroke({ width: 1, color: this.#theme.ink, alpha: 0.55, pixelLine: true });
+				const link = rgba(this.#theme.ink, 0.55);
+				for (const [ti, ej] of gospa.pairs) lines.segment(truthScreen[ti][0], truthScreen[ti][1], estScreen[ej][0], estScreen[ej][1], link);
+				const missed = rgba(C.truth);
 				gospa.truthToEstimate.forEach((j, i) => {
-					if (j < 0) this.#pools.missed.next().position.set(truthScreen[i][0], truthScreen[i][1]);
+					if (j < 0) marks.mark(Shape.ring, truthScreen[i][0], truthScreen[i][1], missed);
 				});
+				const invented = rgba(C.estimate);
 				gospa.estimateToTruth.forEach((i, j) => {
-					if (i < 0) this.#pools.false.next().position.set(estScreen[j][0], estScreen[j][1]);
+					if (i < 0) marks.mark(Shape.dashedRing, estScreen[j][0], estScreen[j][1], invented);
 				});
 			}
 
@@ -340,9 +342,9 @@ export class SceneManager {
 
 			const sel = inp.selected ? picks.find((p) => p.key === inp.selected) : undefined;
 			if (sel) this.#g.select.circle(sel.sx, sel.sy, 13).stroke({ width: 2, color: this.#theme.ink, alpha: 0.8 });
-		}
-		for (const p of Object.values(this.#pools)) p.end();
-		this.#labels.end();
+		} else this.#labels.end();
+		lines.end();
+		marks.end();
 		this.#zoneText.end();
 		this.picks = picks;
 		const stats = window.__skeinScene!;
@@ -351,7 +353,35 @@ export class SceneManager {
 		stats.drawnAt = performance.now();
 	}
 
+	/**
+	 * Labels for the selected and hovered estimates, and for every estimate on screen once few enough are in
+	 * view to read them (zoomed in); hundreds of labels at once are unreadable and cost a text object each.
+	 */
+	#drawLabels(inp: SceneInput, est: Estimate[], at: [number, number][], W: number, H: number) {
+		const visible: number[] = [];
+		for (let i = 0; i < est.length; i++) if (at[i][0] >= 0 && at[i][0] <= W && at[i][1] >= 0 && at[i][1] <= H) visible.push(i);
+		const wanted = new Set<number>(visible.length <= LABELS_AT_MOST ? visible : []);
+		for (const key of [inp.selected, this.hover?.kind === 'estimate' ? this.hover.key : null]) {
+			if (!key || key[0] !== 'e') continue;
+			const i = est.findIndex((e, k) => objectKey('e', e.id, k) === key);
+			if (i >= 0) wanted.add(i);
+		}
+		for (const i of wanted) {
+			const e = est[i];
+			if (e.id === undefined && !e.label) continue;
+			const t = this.#labels.next();
+			const text = e.label ? `${e.id ?? ''} ${e.label}`.trim() : String(e.id);
+			if (t.text !== text) t.text = text;
+			t.position.set(at[i][0] + 6, at[i][1] - 14);
+			t.alpha = Math.max(0.25, e.r ?? 1);
+		}
+		this.#labels.end();
+	}
+
 	#drawGrid(W: number, H: number, sx: (x: number) => number, sy: (y: number) => number) {
+		const key = `${W} ${H} ${this.zoom} ${this.cx} ${this.cy} ${this.#theme.grid} ${this.#theme.ink}`;
+		if (key === this.#gridKey) return;
+		this.#gridKey = key;
 		const g = this.#g.grid;
 		g.clear();
 		const step = niceLength(this.zoom, 60);
@@ -366,7 +396,8 @@ export class SceneManager {
 		s.moveTo(16, H - 18).lineTo(16 + len * this.zoom, H - 18).moveTo(16, H - 23).lineTo(16, H - 13);
 		s.moveTo(16 + len * this.zoom, H - 23).lineTo(16 + len * this.zoom, H - 13);
 		s.stroke({ width: 1.5, color: this.#theme.ink });
-		this.#scaleText.text = `${len >= 1 ? len : len.toPrecision(1)} m`;
+		const label = `${len >= 1 ? len : len.toPrecision(1)} m`;
+		if (this.#scaleText.text !== label) this.#scaleText.text = label;
 		this.#scaleText.position.set(16, H - 38);
 	}
 
@@ -396,41 +427,42 @@ export class SceneManager {
 			g.stroke({ width: 1.5, color: C.zone });
 			const p = probs[zone.name];
 			const t = this.#zoneText.next();
-			t.text = `${zone.name} · P ${p === undefined ? '—' : p.toFixed(2)}`;
+			const label = `${zone.name} · P ${p === undefined ? '—' : p.toFixed(2)}`;
+			if (t.text !== label) t.text = label;
 			t.position.set(Math.min(...corners.map((c) => c[0])) + 4, Math.min(...corners.map((c) => c[1])) - 16);
 		}
 	}
 
+	/** trails thinned to a point every TRAIL_STEP_PX on screen at most: finer steps would not show */
 	#drawTrails(inp: SceneInput, sx: (x: number) => number, sy: (y: number) => number) {
 		if (!inp.frame || inp.trail.length < 2) return;
-		const g = this.#g.trails;
 		// trails go through world coordinates frame by frame, then into the current display frame
 		const toCurrent = rigidBetween('world', inp.coords, inp.frame.ego);
 		const { ix, iy } = this.#layout();
 		const stride = Math.max(1, Math.floor(inp.trail.length / 25));
 		for (const [kind, on, color] of [
-			['estimates', inp.layers.includes('estimates'), C.estimate],
-			['truth', inp.layers.includes('truth'), C.truth]
+			['estimates', inp.layers.includes('estimates'), rgba(C.estimate, 0.5)],
+			['truth', inp.layers.includes('truth'), rgba(C.truth, 0.5)]
 		] as const) {
 			if (!on) continue;
-			const paths = new Map<string | number, number[]>();
+			const last = new Map<string | number, [number, number]>();
 			for (let k = 0; k < inp.trail.length; k += stride) {
 				const f = inp.trail[k];
-				const tr = compose(toCurrent, rigidBetween(this.#geo.coords, 'world', f.ego));
+				const tr = this.#geo.coords === 'ego' && !f.ego ? identity : compose(toCurrent, rigidBetween(this.#geo.coords, 'world', f.ego));
+				const final = k + stride >= inp.trail.length;
 				for (const o of f[kind] ?? []) {
 					if (o.id === undefined) continue;
-					const [x, y] = apply(this.#geo.coords === 'ego' && !f.ego ? identity : tr, o.x[ix], o.x[iy]);
-					let p = paths.get(o.id);
-					if (!p) paths.set(o.id, (p = []));
-					p.push(sx(x), sy(y));
+					const [x, y] = apply(tr, o.x[ix], o.x[iy]);
+					const [px, py] = [sx(x), sy(y)];
+					const prev = last.get(o.id);
+					if (!prev) last.set(o.id, [px, py]);
+					else if (final || (px - prev[0]) ** 2 + (py - prev[1]) ** 2 >= TRAIL_STEP_PX ** 2) {
+						this.#lines.segment(prev[0], prev[1], px, py, color);
+						prev[0] = px;
+						prev[1] = py;
+					}
 				}
 			}
-			for (const p of paths.values()) {
-				if (p.length < 4) continue;
-				g.moveTo(p[0], p[1]);
-				for (let i = 2; i < p.length; i += 2) g.lineTo(p[i], p[i + 1]);
-			}
-			g.stroke({ width: 1, color, alpha: 0.5, pixelLine: true });
 		}
 	}
 
@@ -448,7 +480,7 @@ export class SceneManager {
 				return;
 			}
 			const r = canvas.getBoundingClientRect();
-			this.hover = this.pick(e.clientX - r.left, e.clientY - r.top);
+			this.#setHover(this.pick(e.clientX - r.left, e.clientY - r.top));
 		});
 		canvas.addEventListener('pointerup', (e) => {
 			const start = this.#drag;
@@ -458,7 +490,7 @@ export class SceneManager {
 				this.onSelect(this.pick(e.clientX - r.left, e.clientY - r.top)?.key ?? null);
 			}
 		});
-		canvas.addEventListener('pointerleave', () => (this.hover = null));
+		canvas.addEventListener('pointerleave', () => this.#setHover(null));
 		canvas.addEventListener(
 			'wheel',
 			(e) => {
@@ -473,6 +505,13 @@ export class SceneManager {
 			},
 			{ passive: false }
 		);
+	}
+
+	#setHover(pick: Pickable | null) {
+		if (pick?.key === this.hover?.key) return;
+		this.hover = pick;
+		// the hovered estimate gets its label
+		this.invalidate();
 	}
 
 	/** the object nearest a screen point, within 10 px; estimates and truth before measurements */
@@ -497,10 +536,22 @@ export class SceneManager {
 
 	destroy() {
 		this.#ro.disconnect();
+		this.#lines.destroy();
+		this.#marks.destroy();
 		this.#app.destroy(true, { children: true });
 		void this.#pixi;
 		void this.#host;
 	}
+}
+
+/** true when WebGL is rasterised on the CPU */
+function softwareWebGL(): boolean {
+	const gl = document.createElement('canvas').getContext('webgl');
+	if (!gl) return true;
+	const info = gl.getExtension('WEBGL_debug_renderer_info');
+	const name = String(gl.getParameter(info ? info.UNMASKED_RENDERER_WEBGL : gl.RENDERER));
+	gl.getExtension('WEBGL_lose_context')?.loseContext();
+	return /swiftshader|llvmpipe|softpipe|software/i.test(name);
 }
 
 function dash(g: Graphics, [x0, y0]: [number, number], [x1, y1]: [number, number], on: number, off: number) {
