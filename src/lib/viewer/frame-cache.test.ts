@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import type { Frame } from '$lib/protocol/types';
-import { atOrBefore, FrameCache, type FetchWindow } from './frame-cache';
+import { atOrBefore, FrameCache, type FetchProbe, type FetchWindow } from './frame-cache';
 
 const T0 = 1_800_000_000;
 const HZ = 10;
@@ -30,10 +30,10 @@ describe('FrameCache', () => {
 		expect(atOrBefore([0, 0.1, 0.2], 0.2)).toBe(2);
 	});
 
-	it('loads the window at the playhead and one ahead in the play direction', async () => {
+	it('loads the window at the playhead first, then one ahead in the play direction', async () => {
 		const { cache, pending, flush } = setup();
 		cache.want(12.3, 1);
-		expect(pending.map((p) => Math.round(p.from - T0))).toEqual([15, 10]);
+		expect(pending.map((p) => Math.round(p.from - T0))).toEqual([10, 15]);
 		expect(cache.lookup(12.3)).toBeNull(); // nothing on hand yet: the scene keeps what it drew
 		await flush();
 		expect(cache.lookup(12.3)).toMatchObject({ exact: true });
@@ -115,5 +115,32 @@ describe('FrameCache', () => {
 		cache.want(0, 1, 0, 0);
 		await new Promise((r) => setTimeout(r, 0));
 		expect(cache.lookup(0)!.frame.seq).toBe(0);
+	});
+
+	it('draws the probed frame at the playhead before its window arrives, and drops stale probes and windows', async () => {
+		const probes: { at: number; signal: AbortSignal; resolve: (f: Frame[]) => void }[] = [];
+		const windows: { from: number; signal: AbortSignal }[] = [];
+		const fetchProbe: FetchProbe = (at, signal) => new Promise((resolve) => probes.push({ at, signal, resolve }));
+		const fetchWindow: FetchWindow = (from, _to, signal) => new Promise(() => windows.push({ from, signal }));
+		let changes = 0;
+		const cache = new FrameCache({ firstT: T0, duration: 59.9, windowS: 5, maxWindows: 8, fetchWindow, fetchProbe, onChange: () => changes++ });
+		cache.want(30.05, 1, 5);
+		expect(probes).toHaveLength(1);
+		expect(windows.map((w) => Math.round(w.from - T0))).toEqual([30, 35, 25]);
+		cache.want(30.05, 1, 5); // the same wish twice asks nothing new
+		expect(probes).toHaveLength(1);
+		cache.want(50.05, 1, 5);
+		expect(probes[0].signal.aborted).toBe(true);
+		expect(windows.filter((w) => w.signal.aborted).map((w) => Math.round(w.from - T0))).toEqual([30, 35, 25]);
+		probes[0].resolve([{ seq: 300, t: T0 + 30 }]); // late answer to the stale probe: ignored
+		probes[1].resolve([
+			{ seq: 499, t: T0 + 49.9 },
+			{ seq: 500, t: T0 + 50 }
+		]);
+		await new Promise((r) => setTimeout(r, 0));
+		expect(changes).toBe(1);
+		expect(cache.lookup(50.05)).toMatchObject({ exact: true, frame: { seq: 500 } });
+		expect(cache.lookup(50.05)!.t).toBeCloseTo(50, 6);
+		expect(cache.lookup(51)).toBeNull(); // the probe answers for its own time only
 	});
 });

@@ -2,11 +2,15 @@
  * The Run screen's frame cache, without DOM or Svelte: frames arrive in fixed time windows, the windows
  * around the playhead (and ahead in the play direction) are kept, the least recently used go first, and a
  * lookup always answers with the nearest frame on hand, so drawing never waits for the network.
+ * After a jump the single frame at the playhead is fetched first (a "probe"), so it can be drawn before its
+ * window and the trail windows arrive; fetches nobody wants any more are cancelled.
  */
 import type { Frame } from '$lib/protocol/types';
 
 /** t relative to the run's first frame, seconds; absolute device time is firstT + t */
 export type FetchWindow = (fromAbs: number, toAbs: number, signal: AbortSignal) => Promise<Frame[]>;
+/** the frames with absolute t in [atAbs − span, atAbs], for some span the fetcher chooses (one or two frame periods) */
+export type FetchProbe = (atAbs: number, signal: AbortSignal) => Promise<Frame[]>;
 
 /** time tolerance: epoch seconds carry ~0.2 µs of rounding */
 const EPS = 1e-5;
@@ -19,7 +23,9 @@ export interface FrameCacheOptions {
 	/** windows kept at most (memory bound) */
 	maxWindows: number;
 	fetchWindow: FetchWindow;
-	/** called whenever a window arrives */
+	/** fetches the frame at the playhead while its window is not loaded; without it the window is awaited */
+	fetchProbe?: FetchProbe;
+	/** called whenever a window or a probe arrives */
 	onChange?: () => void;
 	/** a failed window is fetched again when wanted after this long; default 2 s */
 	retryMs?: number;
@@ -44,10 +50,21 @@ export interface Lookup {
 	exact: boolean;
 }
 
+interface Probe {
+	/** run-relative t asked for */
+	t: number;
+	state: 'loading' | 'ready' | 'failed';
+	/** the frame at or before t, when the fetch found one */
+	frame: Frame | null;
+	frameT: number;
+	abort: AbortController;
+}
+
 export class FrameCache {
 	#o: FrameCacheOptions;
 	/** Map order is recency order: the last entry was used last */
 	#windows = new Map<number, Window>();
+	#probe: Probe | null = null;
 
 	constructor(opts: FrameCacheOptions) {
 		this.#o = opts;
@@ -92,26 +109,63 @@ export class FrameCache {
 		const needed: number[] = [];
 		const here = this.indexOf(t);
 		needed.push(here);
-		for (let i = this.indexOf(t - behindS); i < here; i++) needed.push(i);
 		for (let k = 1; k <= ahead; k++) {
 			const i = here + k * direction;
 			if (i >= 0 && i <= this.lastWindow) needed.push(i);
 		}
-		// touch in reverse priority so the current window ends most recent
-		for (const i of [...needed].reverse()) this.#touch(i);
-		this.#evict(new Set(needed));
+		for (let i = here - 1; i >= this.indexOf(t - behindS); i--) needed.push(i);
+		this.#wantProbe(t, here);
+		// fetches for windows nobody wants any more are cancelled
+		const keep = new Set(needed);
+		for (const [index, w] of this.#windows) {
+			if (w.state === 'loading' && !keep.has(index)) {
+				w.abort.abort();
+				this.#windows.delete(index);
+			}
+		}
+		// touch in reverse priority so the current window ends most recent; fetch in priority order
+		const missing: number[] = [];
+		for (const i of [...needed].reverse()) if (!this.#touch(i)) missing.push(i);
+		for (const i of missing.reverse()) this.#load(i);
+		this.#evict(keep);
 	}
 
-	#touch(index: number) {
+	/** true when the window is on hand or on its way */
+	#touch(index: number): boolean {
 		const w = this.#windows.get(index);
-		if (w) {
-			this.#windows.delete(index);
-			this.#windows.set(index, w);
-			// a failed window is retried after a pause, never in a tight loop
-			if (w.state === 'failed' && this.#now() - w.failedAt >= (this.#o.retryMs ?? 2000)) this.#load(index);
+		if (!w) return false;
+		this.#windows.delete(index);
+		this.#windows.set(index, w);
+		// a failed window is retried after a pause, never in a tight loop
+		return !(w.state === 'failed' && this.#now() - w.failedAt >= (this.#o.retryMs ?? 2000));
+	}
+
+	#wantProbe(t: number, here: number) {
+		const p = this.#probe;
+		if (!this.#o.fetchProbe || this.#windows.get(here)?.state === 'ready') {
+			p?.abort.abort();
+			this.#probe = null;
 			return;
 		}
-		this.#load(index);
+		if (p && Math.abs(p.t - t) <= EPS) return;
+		p?.abort.abort();
+		const probe: Probe = { t, state: 'loading', frame: null, frameT: 0, abort: new AbortController() };
+		this.#probe = probe;
+		const at = this.#o.firstT + t;
+		this.#o.fetchProbe(at + EPS, probe.abort.signal).then(
+			(frames) => {
+				if (this.#probe !== probe) return;
+				let best: Frame | null = null;
+				for (const f of frames) if (f.t <= at + EPS && (!best || f.t > best.t)) best = f;
+				probe.frame = best;
+				probe.frameT = best ? best.t - this.#o.firstT : 0;
+				probe.state = 'ready';
+				this.#o.onChange?.();
+			},
+			() => {
+				if (this.#probe === probe) probe.state = 'failed';
+			}
+		);
 	}
 
 	#load(index: number) {
@@ -148,9 +202,14 @@ export class FrameCache {
 		}
 	}
 
-	/** The frame at or just before t if its window is loaded; otherwise the nearest frame of any loaded window. */
+	/**
+	 * The frame at or just before t if its window is loaded, or if the probe for t found it; otherwise the
+	 * nearest frame of any loaded window.
+	 */
 	lookup(t: number): Lookup | null {
+		const p = this.#probe;
 		const w = this.#windows.get(this.indexOf(t));
+		if (p?.frame && Math.abs(p.t - t) <= EPS && w?.state !== 'ready') return { frame: p.frame, t: p.frameT, exact: true };
 		if (w?.state === 'ready' && w.frames.length) {
 			const i = atOrBefore(w.times, t);
 			if (i >= 0) return { frame: w.frames[i], t: w.times[i], exact: true };
@@ -214,6 +273,8 @@ export class FrameCache {
 	}
 
 	destroy() {
+		this.#probe?.abort.abort();
+		this.#probe = null;
 		for (const w of this.#windows.values()) w.abort.abort();
 		this.#windows.clear();
 	}

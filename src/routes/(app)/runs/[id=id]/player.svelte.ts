@@ -11,6 +11,8 @@ const unpackr = new Unpackr({ useRecords: false, mapsAsObjects: true, int64AsTyp
 export const SPEEDS = [0.1, 0.25, 0.5, 1, 2, 4, 8, 16] as const;
 /** seconds of history the scene draws as trails */
 export const TRAIL_S = 5;
+/** side-panel refreshes a second while playing */
+const PANEL_HZ = 5;
 
 export interface PlayerRun {
 	id: string;
@@ -27,17 +29,29 @@ export class RunPlayer {
 	playing = $state(false);
 	speed = $state(1);
 	direction = $state<1 | -1>(1);
-	/** the frame on screen and its run-relative time */
-	frame = $state.raw<Frame | null>(null);
+	#frame = $state.raw<Frame | null>(null);
+	/** the frame on screen (set here, or by the live follower) and its run-relative time */
+	get frame(): Frame | null {
+		return this.#frame;
+	}
+	set frame(f: Frame | null) {
+		this.#frame = f;
+		this.#syncPanel(false);
+	}
 	frameT = $state(0);
 	catchingUp = $state(false);
+	/** the frame the side panels (ledger, inspector) show: the one on screen, at most PANEL_HZ times a second while it moves */
+	panel = $state.raw<{ frame: Frame | null; t: number }>({ frame: null, t: 0 });
 
 	readonly run: PlayerRun;
 	readonly cache: FrameCache | null;
 	readonly settings: MetricSettings;
 	readonly evaluation: FrameEvaluation | null = $derived.by(() => (this.frame ? this.evaluate(this.frame) : null));
+	readonly panelEvaluation: FrameEvaluation | null = $derived.by(() => (this.panel.frame ? this.evaluate(this.panel.frame) : null));
 
 	#raf = 0;
+	#panelAt = 0;
+	#panelTimer: ReturnType<typeof setTimeout> | undefined;
 	#last = 0;
 	#evals = new WeakMap<Frame, FrameEvaluation>();
 
@@ -56,7 +70,9 @@ export class RunPlayer {
 						// ~40 frames a window keeps each fetch small even for heavy frames
 						windowS: Math.max(0.5, 40 / rate),
 						maxWindows: 24,
-						fetchWindow: (from, to, signal) => this.#fetch(from, to, signal),
+						fetchWindow: (from, to, signal) => this.#fetch(from, to, signal, 5000),
+						// the frame at the playhead: the last frame in the frame period or two before it
+						fetchProbe: (at, signal) => this.#fetch(at - 1.5 / rate, at, signal, 64),
 						onChange: () => this.refresh()
 					});
 	}
@@ -66,8 +82,8 @@ export class RunPlayer {
 		this.refresh();
 	}
 
-	async #fetch(from: number, to: number, signal: AbortSignal): Promise<Frame[]> {
-		const res = await fetch(`/api/runs/${this.run.id}/frames?from=${from}&to=${to}&limit=5000`, {
+	async #fetch(from: number, to: number, signal: AbortSignal, limit: number): Promise<Frame[]> {
+		const res = await fetch(`/api/runs/${this.run.id}/frames?from=${from}&to=${to}&limit=${limit}`, {
 			headers: { accept: 'application/x-msgpack' },
 			signal
 		});
@@ -96,9 +112,28 @@ export class RunPlayer {
 		const found = this.cache.lookup(this.t);
 		this.catchingUp = !found?.exact;
 		if (found && found.frame !== this.frame) {
-			this.frame = found.frame;
 			this.frameT = found.t;
+			this.frame = found.frame;
 		}
+		this.#syncPanel(!this.playing);
+	}
+
+	/** Svelte re-renders the ledger and inspector a few times a second while frames stream by, at once after a seek or a step */
+	#syncPanel(now: boolean) {
+		if (this.panel.frame === this.#frame) return;
+		const wait = now ? 0 : this.#panelAt + 1000 / PANEL_HZ - performance.now();
+		if (wait > 0) {
+			this.#panelTimer ??= setTimeout(() => {
+				this.#panelTimer = undefined;
+				this.#syncPanel(true);
+			}, wait);
+			return;
+		}
+		clearTimeout(this.#panelTimer);
+		this.#panelTimer = undefined;
+		this.#panelAt = performance.now();
+		const f = this.#frame;
+		this.panel = { frame: f, t: f && this.run.firstT !== null ? f.t - this.run.firstT : 0 };
 	}
 
 	/** trail frames: the last TRAIL_S seconds up to the frame on screen */
@@ -138,6 +173,7 @@ export class RunPlayer {
 		this.playing = false;
 		if (this.#raf) cancelAnimationFrame(this.#raf);
 		this.#raf = 0;
+		this.#syncPanel(true);
 	}
 
 	faster(step: 1 | -1) {
@@ -161,6 +197,7 @@ export class RunPlayer {
 
 	destroy() {
 		this.pause();
+		clearTimeout(this.#panelTimer);
 		this.cache?.destroy();
 	}
 }
