@@ -109,7 +109,7 @@ function heavyFrame(i: number, t0: number): FrameInput {
 }
 
 async function stats(b: Browserish): Promise<LiveStats> {
-	const res = await b.request('/live', { headers: { accept: 'application/json' } });
+	const res = await b.json('/api/live', 'GET');
 	expect(res.status).toBe(200);
 	return (await res.json()) as LiveStats;
 }

@@ -68,7 +68,8 @@ export const routeRules: Record<string, RouteRule> = {
 	'/api/runs/[id=id]/settings': { read: 'runs:read', write: 'runs:configure' },
 	'/api/runs/[id=id]/series': { read: 'runs:read' },
 	'/api/runs/[id=id]/pins': { read: 'pins:read', write: 'pins:create' },
-	'/api/pins': { read: 'pins:read' }
+	'/api/pins': { read: 'pins:read' },
+	'/api/live': { read: 'runs:read' }
 };
 
 export function ruleFor(routeId: string, method: string, search: URLSearchParams): Rule | undefined {

@@ -3,7 +3,7 @@ import { readLiveStats } from '$lib/viewer/live-protocol';
 import type { RequestHandler } from './$types';
 
 /**
- * The Live board as JSON (`accept: application/json`): who is watching, and how far each viewer's outbox is
- * behind. A viewer never has more than one frame pending, however slow it reads.
+ * Open live viewers and how far each one's outbox is behind (docs/live.md §4). A viewer never has more than
+ * one frame pending, however slow it reads.
  */
 export const GET: RequestHandler = () => json(readLiveStats(), { headers: { 'cache-control': 'no-store' } });
