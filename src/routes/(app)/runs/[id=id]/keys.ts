@@ -12,10 +12,17 @@ interface Targets {
 	busy: boolean;
 }
 
+/** typing fields and selects keep every key; a focused checkbox or button keeps only Space, which operates it */
+function screenKey(el: HTMLElement, key: string): boolean {
+	if (el.isContentEditable || el.tagName === 'TEXTAREA' || el.tagName === 'SELECT') return false;
+	if (el instanceof HTMLInputElement) return ['checkbox', 'button', 'submit', 'reset'].includes(el.type) && key !== ' ';
+	if (el.tagName === 'BUTTON' || el.tagName === 'A') return key !== ' ';
+	return true;
+}
+
 export function handleKey(e: KeyboardEvent, { player, view, fit, pin, busy }: Targets) {
 	if (busy || e.ctrlKey || e.metaKey || e.altKey) return;
-	const el = e.target as HTMLElement | null;
-	if (el && (el.isContentEditable || ['INPUT', 'TEXTAREA', 'SELECT'].includes(el.tagName))) return;
+	if (e.target instanceof HTMLElement && !screenKey(e.target, e.key)) return;
 	let handled = true;
 	switch (e.key) {
 		case ' ':

@@ -40,6 +40,8 @@ export class RunPlayer {
 	}
 	frameT = $state(0);
 	catchingUp = $state(false);
+	/** counts windows and probes arriving: what depends on the frames on hand (trails) reads it */
+	arrivals = $state(0);
 	/** the frame the side panels (ledger, inspector) show: the one on screen, at most PANEL_HZ times a second while it moves */
 	panel = $state.raw<{ frame: Frame | null; t: number }>({ frame: null, t: 0 });
 
@@ -73,7 +75,10 @@ export class RunPlayer {
 						fetchWindow: (from, to, signal) => this.#fetch(from, to, signal, 5000),
 						// the frame at the playhead: the last frame in the frame period or two before it
 						fetchProbe: (at, signal) => this.#fetch(at - 1.5 / rate, at, signal, 64),
-						onChange: () => this.refresh()
+						onChange: () => {
+							this.arrivals++;
+							this.refresh();
+						}
 					});
 	}
 
@@ -136,8 +141,9 @@ export class RunPlayer {
 		this.panel = { frame: f, t: f && this.run.firstT !== null ? f.t - this.run.firstT : 0 };
 	}
 
-	/** trail frames: the last TRAIL_S seconds up to the frame on screen */
+	/** trail frames: the last TRAIL_S seconds up to the frame on screen (on hand when `arrivals` last changed) */
 	trail(): Frame[] {
+		void this.arrivals;
 		return this.cache ? this.cache.range(this.frameT - TRAIL_S, this.frameT) : [];
 	}
 

@@ -39,7 +39,7 @@ in vec4 aColor;
 in vec2 aShape;
 out vec4 vColor;
 out vec2 vShape;
-uniform float uResolution;
+uniform highp float uResolution;
 ${HEAD}
 void main() {
 	gl_Position = place(aPosition);
@@ -51,7 +51,7 @@ void main() {
 const markerFragment = `in vec4 vColor;
 in vec2 vShape;
 out vec4 finalColor;
-uniform float uResolution;
+uniform highp float uResolution;
 float box(vec2 p, vec2 b) {
 	vec2 d = abs(p) - b;
 	return length(max(d, 0.0)) + min(max(d.x, d.y), 0.0);
