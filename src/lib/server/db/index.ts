@@ -1,4 +1,5 @@
 import { drizzle, type PostgresJsDatabase } from 'drizzle-orm/postgres-js';
+import { createConnection, type Socket } from 'node:net';
 import postgres from 'postgres';
 import * as schema from './schema';
 import { frames } from './frames';
@@ -16,8 +17,25 @@ let client: postgres.Sql | undefined;
 let drizzleClient: postgres.Sql | undefined;
 let database: Database | undefined;
 
+/**
+ * postgres.js leaves Nagle's algorithm on. A COPY ends with a small CopyDone written right after the data,
+ * which then waits for the server's delayed ACK: about 40 ms, twice per COPY (measured). Sockets here send at once.
+ */
+function tcpNoDelay(options: { host: string[]; port: number[] }): Promise<Socket> {
+	return new Promise((resolve, reject) => {
+		const socket = createConnection({ host: options.host[0], port: options.port[0], noDelay: true });
+		socket.once('connect', () => {
+			socket.off('error', reject);
+			resolve(socket);
+		});
+		socket.once('error', reject);
+	});
+}
+
 function connect(): postgres.Sql {
-	return postgres(databaseUrl(), { max: Number(process.env.DATABASE_POOL ?? 10), onnotice: () => {} });
+	// `socket` is a documented postgres.js option its type declarations leave out
+	const options = Object.assign({ max: Number(process.env.DATABASE_POOL ?? 10), onnotice: () => {} }, { socket: tcpNoDelay });
+	return postgres(databaseUrl(), options);
 }
 
 /**
