@@ -103,9 +103,10 @@ export class FrameCache {
 
 	/**
 	 * Asks for the windows covering [t − behindS, t] and `ahead` windows beyond in the play direction;
-	 * touches them so they are the last evicted, then evicts down to maxWindows.
+	 * touches them so they are the last evicted, then evicts down to maxWindows. `probe`: fetch the frame at t on
+	 * its own first when its window is not on hand (after a jump; not while playing, where windows are ahead).
 	 */
-	want(t: number, direction: 1 | -1 = 1, behindS = 0, ahead = 1): void {
+	want(t: number, direction: 1 | -1 = 1, behindS = 0, ahead = 1, probe = true): void {
 		const needed: number[] = [];
 		const here = this.indexOf(t);
 		needed.push(here);
@@ -114,7 +115,7 @@ export class FrameCache {
 			if (i >= 0 && i <= this.lastWindow) needed.push(i);
 		}
 		for (let i = here - 1; i >= this.indexOf(t - behindS); i--) needed.push(i);
-		this.#wantProbe(t, here);
+		this.#wantProbe(t, here, probe);
 		// fetches for windows nobody wants any more are cancelled
 		const keep = new Set(needed);
 		for (const [index, w] of this.#windows) {
@@ -123,10 +124,11 @@ export class FrameCache {
 				this.#windows.delete(index);
 			}
 		}
-		// touch in reverse priority so the current window ends most recent; fetch in priority order
+		// touch in reverse priority so the current window ends most recent; fetch in priority order, and only
+		// once a probe in flight has come back, so the windows do not hold it up
 		const missing: number[] = [];
 		for (const i of [...needed].reverse()) if (!this.#touch(i)) missing.push(i);
-		for (const i of missing.reverse()) this.#load(i);
+		if (this.#probe?.state !== 'loading') for (const i of missing.reverse()) this.#load(i);
 		this.#evict(keep);
 	}
 
@@ -140,9 +142,9 @@ export class FrameCache {
 		return !(w.state === 'failed' && this.#now() - w.failedAt >= (this.#o.retryMs ?? 2000));
 	}
 
-	#wantProbe(t: number, here: number) {
+	#wantProbe(t: number, here: number, wanted: boolean) {
 		const p = this.#probe;
-		if (!this.#o.fetchProbe || this.#windows.get(here)?.state === 'ready') {
+		if (!wanted || !this.#o.fetchProbe || this.#windows.get(here)?.state === 'ready') {
 			p?.abort.abort();
 			this.#probe = null;
 			return;
@@ -163,7 +165,9 @@ export class FrameCache {
 				this.#o.onChange?.();
 			},
 			() => {
-				if (this.#probe === probe) probe.state = 'failed';
+				if (this.#probe !== probe) return;
+				probe.state = 'failed';
+				this.#o.onChange?.();
 			}
 		);
 	}

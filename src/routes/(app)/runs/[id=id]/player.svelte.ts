@@ -113,7 +113,7 @@ export class RunPlayer {
 	/** Asks the cache for the windows around t and shows the nearest frame on hand. */
 	refresh() {
 		if (!this.cache) return;
-		this.cache.want(this.t, this.direction, TRAIL_S, this.playing ? 2 : 1);
+		this.cache.want(this.t, this.direction, TRAIL_S, this.playing ? 2 : 1, !this.playing);
 		const found = this.cache.lookup(this.t);
 		this.catchingUp = !found?.exact;
 		if (found && found.frame !== this.frame) {

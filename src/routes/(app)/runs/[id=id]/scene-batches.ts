@@ -11,7 +11,7 @@ type Pixi = typeof import('pixi.js');
 
 export const Shape = { dot: 0, cross: 1, square: 2, ring: 3, dashedRing: 4 } as const;
 /** side of the point sprite (CSS px) that holds each shape with its smooth edge */
-const SIDE = [9, 11, 12, 21, 23];
+const SIDE = [8, 10, 12, 21, 23];
 
 const HEAD = `
 uniform mat3 uProjectionMatrix;
@@ -65,9 +65,12 @@ void main() {
 	else if (s < 2.5) d = abs(box(p, vec2(4.5))) - 0.75;
 	else if (s < 3.5) d = abs(length(p) - 9.0) - 0.75;
 	else {
+		// most of the sprite lies off the ring: leave before the arc tangent
+		float off = abs(length(p) - 10.0) - 0.75;
+		if (off * uResolution > 0.5) discard;
 		float seg = 6.2831853 * 10.0 / 12.0;
 		float t = fract(atan(p.y, p.x) / 6.2831853 * 12.0) * seg;
-		d = max(abs(length(p) - 10.0) - 0.75, max(-t, t - 0.55 * seg));
+		d = max(off, max(-t, t - 0.55 * seg));
 	}
 	float a = clamp(0.5 - d * uResolution, 0.0, 1.0) * vColor.a;
 	if (a <= 0.0) discard;
