@@ -32,6 +32,12 @@ export default defineConfig({
 		url: `http://127.0.0.1:${port}/healthz`,
 		timeout: 60_000,
 		reuseExistingServer: false,
-		env: { PORT: String(port), HOST: '127.0.0.1', NODE_ENV: 'production', MAIL_CATCHER_PORT: '0', LOG_LEVEL: 'warn' }
+		env: {
+			PORT: String(port),
+			HOST: '127.0.0.1',
+			NODE_ENV: 'production',
+			MAIL_CATCHER_PORT: '0',
+			LOG_LEVEL: 'warn'
+		}
 	}
 });

@@ -38,7 +38,8 @@ export function attachSockets(server: Server): AttachedSockets {
 		if (ingest.handleUpgrade(req, socket, head)) return;
 		if (live.handleUpgrade(req, socket, head)) return;
 		// not ours: in dev, Vite's own HMR socket handles its path; elsewhere nobody does
-		if (!(req.url ?? '').startsWith('/@') && server.listenerCount('upgrade') === 1) socket.destroy();
+		if (!(req.url ?? '').startsWith('/@') && server.listenerCount('upgrade') === 1)
+			socket.destroy();
 	});
 
 	const listening = sql.listen(keyRevokedChannel, (keyId) => {
@@ -60,12 +61,20 @@ export function attachSockets(server: Server): AttachedSockets {
 		if (days > 0) await applyRetention(sql, days);
 	};
 	const timers = [
-		setTimeout(() => void sweep().catch((err) => logger.error({ err }, 'run sweep failed')), graceMs + 1000),
-		setInterval(() => void maintain().catch((err) => logger.error({ err }, 'maintenance failed')), hourMs)
+		setTimeout(
+			() => void sweep().catch((err) => logger.error({ err }, 'run sweep failed')),
+			graceMs + 1000
+		),
+		setInterval(
+			() => void maintain().catch((err) => logger.error({ err }, 'maintenance failed')),
+			hourMs
+		)
 	];
 	for (const t of timers) t.unref();
 	void maintain().catch((err) => logger.error({ err }, 'maintenance failed'));
-	void startMetricJobs(process.env.DATABASE_URL).catch((err) => logger.error({ err }, 'metric jobs failed to start'));
+	void startMetricJobs(process.env.DATABASE_URL).catch((err) =>
+		logger.error({ err }, 'metric jobs failed to start')
+	);
 
 	return {
 		async close() {

@@ -8,7 +8,14 @@ import type { Frame, IngestRunState } from '../src/lib/protocol/types';
 
 export type RunEvent =
 	/** `metrics`: the per-frame columns the store computed and committed; null when it computed none */
-	| { kind: 'frame'; runId: string; seq: number; t: number; frame: Frame; metrics: FrameMetrics | null }
+	| {
+			kind: 'frame';
+			runId: string;
+			seq: number;
+			t: number;
+			frame: Frame;
+			metrics: FrameMetrics | null;
+	  }
 	| { kind: 'quarantined'; runId: string; seq: number; reason: string }
 	| { kind: 'state'; runId: string; state: IngestRunState };
 

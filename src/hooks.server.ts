@@ -15,5 +15,7 @@ export const handle: Handle = sequence(logging, theme, session, guard);
 
 export const handleError: HandleServerError = ({ error, event, status, message }) => {
 	if (status >= 500) logger.error({ err: error, path: event.url.pathname }, 'unhandled error');
-	return { message: status >= 500 ? 'Something went wrong on our side; it has been logged.' : message };
+	return {
+		message: status >= 500 ? 'Something went wrong on our side; it has been logged.' : message
+	};
 };

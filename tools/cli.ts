@@ -4,12 +4,34 @@
  */
 import { parseArgs } from 'node:util';
 import { z } from 'zod';
-import { addPersonSchema, emailField, fieldErrors, roleField, tokenNameSchema } from '../src/lib/validation/people';
+import {
+	addPersonSchema,
+	emailField,
+	fieldErrors,
+	roleField,
+	tokenNameSchema
+} from '../src/lib/validation/people';
 import { systemActor, type Actor } from '../src/lib/server/auth/audit';
 import { closeDb } from '../src/lib/server/db';
-import { createApiToken, createUser, findUserByEmail, listPeople, PeopleError, setRole } from '../src/lib/server/people';
+import {
+	createApiToken,
+	createUser,
+	findUserByEmail,
+	listPeople,
+	PeopleError,
+	setRole
+} from '../src/lib/server/people';
 import { expiresField, keyLabelField, rigNameField, uuidField } from '../src/lib/validation/rigs';
-import { createFeedKey, createRig, findFeedKeysByPrefix, findRigByName, getFeedKey, listAllFeedKeys, revokeFeedKey, RigsError } from '../src/lib/server/rigs';
+import {
+	createFeedKey,
+	createRig,
+	findFeedKeysByPrefix,
+	findRigByName,
+	getFeedKey,
+	listAllFeedKeys,
+	revokeFeedKey,
+	RigsError
+} from '../src/lib/server/rigs';
 import { demoCluster, startCluster, ensureDatabase } from './lib/pg';
 import { applyMigrations } from '../src/lib/server/db/migrate';
 import { parseSimulateArgs, simulate, SimulateUsageError } from './sim/command';
@@ -106,18 +128,27 @@ async function run(argv: string[]): Promise<void> {
 	const key = `${group ?? ''} ${command ?? ''}`.trim();
 	switch (key) {
 		case 'people add': {
-			const v = check(addPersonSchema, flags(rest, { email: { required: true }, role: { required: true }, name: {}, password: {} }));
+			const v = check(
+				addPersonSchema,
+				flags(rest, { email: { required: true }, role: { required: true }, name: {}, password: {} })
+			);
 			const user = await createUser(cliActor, v);
-			console.log(`added ${user.email} as ${user.role}${v.password ? '' : ' (no password yet: send a reset link or set one with --password)'}`);
+			console.log(
+				`added ${user.email} as ${user.role}${v.password ? '' : ' (no password yet: send a reset link or set one with --password)'}`
+			);
 			return;
 		}
 		case 'people list': {
 			flags(rest, {});
-			for (const p of await listPeople()) console.log(`${p.email}\t${p.role}\t${p.active ? 'active' : 'deactivated'}\t${p.name}`);
+			for (const p of await listPeople())
+				console.log(`${p.email}\t${p.role}\t${p.active ? 'active' : 'deactivated'}\t${p.name}`);
 			return;
 		}
 		case 'people set-role': {
-			const v = check(z.object({ email: emailField, role: roleField }), flags(rest, { email: { required: true }, role: { required: true } }));
+			const v = check(
+				z.object({ email: emailField, role: roleField }),
+				flags(rest, { email: { required: true }, role: { required: true } })
+			);
 			const user = await findUserByEmail(v.email);
 			if (!user) throw new PeopleError('not_found', `no person with e-mail ${v.email}`);
 			await setRole(cliActor, user.id, v.role);
@@ -125,45 +156,75 @@ async function run(argv: string[]): Promise<void> {
 			return;
 		}
 		case 'tokens create': {
-			const v = check(z.object({ email: emailField }).and(tokenNameSchema), flags(rest, { email: { required: true }, name: { required: true } }));
+			const v = check(
+				z.object({ email: emailField }).and(tokenNameSchema),
+				flags(rest, { email: { required: true }, name: { required: true } })
+			);
 			const user = await findUserByEmail(v.email);
 			if (!user) throw new PeopleError('not_found', `no person with e-mail ${v.email}`);
 			if (!user.active) throw new PeopleError('invalid', `${v.email} is deactivated`);
-			const t = await createApiToken({ ...cliActor, label: `cli for ${user.email}` }, user.id, v.name);
+			const t = await createApiToken(
+				{ ...cliActor, label: `cli for ${user.email}` },
+				user.id,
+				v.name
+			);
 			console.log(`token "${v.name}" for ${user.email} (shown once):`);
 			console.log(t.token);
 			return;
 		}
 		case 'keys create': {
 			const f = flags(rest, { rig: { required: true }, label: {}, expires: {} });
-			const v = check(z.object({ rig: rigNameField, label: keyLabelField.optional(), expires: expiresField }), f);
+			const v = check(
+				z.object({ rig: rigNameField, label: keyLabelField.optional(), expires: expiresField }),
+				f
+			);
 			const rig = (await findRigByName(v.rig)) ?? (await createRig(cliActor, { name: v.rig }));
 			const made = await createFeedKey(cliActor, rig.id, { label: v.label, expiresAt: v.expires });
-			console.log(`feed key ${made.key.id} for rig "${rig.name}"${v.expires ? `, expires ${v.expires.toISOString()}` : ''} (shown once):`);
+			console.log(
+				`feed key ${made.key.id} for rig "${rig.name}"${v.expires ? `, expires ${v.expires.toISOString()}` : ''} (shown once):`
+			);
 			console.log(made.secret);
 			return;
 		}
 		case 'keys list': {
 			const f = flags(rest, { rig: {} });
-			const rigName = f.rig === undefined ? undefined : check(z.object({ rig: rigNameField }), { rig: f.rig }).rig;
-			if (rigName !== undefined && !(await findRigByName(rigName))) throw new RigsError('not_found', `no rig named "${rigName}"`);
+			const rigName =
+				f.rig === undefined
+					? undefined
+					: check(z.object({ rig: rigNameField }), { rig: f.rig }).rig;
+			if (rigName !== undefined && !(await findRigByName(rigName)))
+				throw new RigsError('not_found', `no rig named "${rigName}"`);
 			for (const k of await listAllFeedKeys(rigName)) {
-				const status = k.rigArchivedAt && (k.status === 'active' || k.status === 'expiring') ? `${k.status} (rig archived)` : k.status;
-				console.log([k.rigName, k.id, k.prefix, k.label, status, k.lastUsedAt?.toISOString() ?? 'never'].join('\t'));
+				const status =
+					k.rigArchivedAt && (k.status === 'active' || k.status === 'expiring')
+						? `${k.status} (rig archived)`
+						: k.status;
+				console.log(
+					[k.rigName, k.id, k.prefix, k.label, status, k.lastUsedAt?.toISOString() ?? 'never'].join(
+						'\t'
+					)
+				);
 			}
 			return;
 		}
 		case 'keys revoke': {
 			const f = flags(rest, { id: {}, prefix: {} });
-			if ((f.id === undefined) === (f.prefix === undefined)) throw new UsageError('give exactly one of --id or --prefix');
+			if ((f.id === undefined) === (f.prefix === undefined))
+				throw new UsageError('give exactly one of --id or --prefix');
 			let keyId: string;
 			if (f.id !== undefined) {
 				keyId = check(z.object({ id: uuidField }), { id: f.id }).id;
-				if (!(await getFeedKey(keyId))) throw new RigsError('not_found', `no feed key with id ${keyId}`);
+				if (!(await getFeedKey(keyId)))
+					throw new RigsError('not_found', `no feed key with id ${keyId}`);
 			} else {
 				const found = await findFeedKeysByPrefix(f.prefix!.replace(/(…|\.\.\.)$/, ''));
-				if (found.length === 0) throw new RigsError('not_found', `no feed key starts with ${f.prefix}`);
-				if (found.length > 1) throw new RigsError('conflict', `${found.length} feed keys start with ${f.prefix}; use --id`);
+				if (found.length === 0)
+					throw new RigsError('not_found', `no feed key starts with ${f.prefix}`);
+				if (found.length > 1)
+					throw new RigsError(
+						'conflict',
+						`${found.length} feed keys start with ${f.prefix}; use --id`
+					);
 				keyId = found[0].id;
 			}
 			const revoked = await revokeFeedKey(cliActor, keyId);

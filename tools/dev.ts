@@ -14,9 +14,13 @@ await applyMigrations(url, resolve(root, 'drizzle'));
 await seedDemoPeople();
 await closeDb();
 
-const vite = spawn('npx', ['vite', 'dev', '--port', process.env.PORT ?? '5173', ...process.argv.slice(2)], {
-	cwd: root,
-	stdio: 'inherit',
-	env: { ...process.env, VITE_CONFIG_NATIVE_IGNORE_WARNING: 'true' }
-});
+const vite = spawn(
+	'npx',
+	['vite', 'dev', '--port', process.env.PORT ?? '5173', ...process.argv.slice(2)],
+	{
+		cwd: root,
+		stdio: 'inherit',
+		env: { ...process.env, VITE_CONFIG_NATIVE_IGNORE_WARNING: 'true' }
+	}
+);
 vite.on('exit', (code) => process.exit(code ?? 0));

@@ -21,26 +21,62 @@ const demoPeople = [
 ];
 
 export const demoRigs = [
-	{ name: 'Marten-3', description: 'Estate car with a roof-mounted sensor halo; junction and town loops.' },
+	{
+		name: 'Marten-3',
+		description: 'Estate car with a roof-mounted sensor halo; junction and town loops.'
+	},
 	{ name: 'Heron-7', description: 'Motorway test vehicle with a long-range front radar.' },
-	{ name: 'Bench Loom', description: 'Bench rig replaying yard captures through the tracker under test.' }
+	{
+		name: 'Bench Loom',
+		description: 'Bench rig replaying yard captures through the tracker under test.'
+	}
 ];
 
 /** Recorded runs: fixed seeds and start times, so a half-seeded demo resumes where it stopped. */
 const recordedRuns = [
-	{ rig: 'Marten-3', scenario: 'lanternfall-crossing', seed: 11, startEpoch: Date.UTC(2026, 10, 24, 7, 40) / 1000, clientRunId: 'demo-lanternfall-1', runName: 'Lanternfall crossing · morning loop', tags: ['junction', 'demo'] },
-	{ rig: 'Heron-7', scenario: 'glassmere-reach', seed: 5, startEpoch: Date.UTC(2026, 10, 26, 13, 5) / 1000, clientRunId: 'demo-glassmere-1', runName: 'Glassmere reach · merge and overtake (object lost behind the lorry)', tags: ['motorway', 'occlusion', 'demo'] },
-	{ rig: 'Bench Loom', scenario: 'brassnettle-yard', seed: 3, startEpoch: Date.UTC(2026, 10, 28, 16, 20) / 1000, clientRunId: 'demo-brassnettle-1', runName: 'Brassnettle yard · clutter by the loading bay (false track)', tags: ['yard', 'clutter', 'demo'] }
+	{
+		rig: 'Marten-3',
+		scenario: 'lanternfall-crossing',
+		seed: 11,
+		startEpoch: Date.UTC(2026, 10, 24, 7, 40) / 1000,
+		clientRunId: 'demo-lanternfall-1',
+		runName: 'Lanternfall crossing · morning loop',
+		tags: ['junction', 'demo']
+	},
+	{
+		rig: 'Heron-7',
+		scenario: 'glassmere-reach',
+		seed: 5,
+		startEpoch: Date.UTC(2026, 10, 26, 13, 5) / 1000,
+		clientRunId: 'demo-glassmere-1',
+		runName: 'Glassmere reach · merge and overtake (object lost behind the lorry)',
+		tags: ['motorway', 'occlusion', 'demo']
+	},
+	{
+		rig: 'Bench Loom',
+		scenario: 'brassnettle-yard',
+		seed: 3,
+		startEpoch: Date.UTC(2026, 10, 28, 16, 20) / 1000,
+		clientRunId: 'demo-brassnettle-1',
+		runName: 'Brassnettle yard · clutter by the loading bay (false track)',
+		tags: ['yard', 'clutter', 'demo']
+	}
 ];
 
 export const liveDemo = { rig: 'Marten-3', scenario: 'lanternfall-crossing' };
 
 export async function seedDemoPeople(): Promise<void> {
 	if (!(await findUserByEmail(demoAdmin.email))) {
-		await createUser(systemActor, { email: demoAdmin.email, role: 'admin', name: 'Demo Admin', password: demoAdmin.password });
+		await createUser(systemActor, {
+			email: demoAdmin.email,
+			role: 'admin',
+			name: 'Demo Admin',
+			password: demoAdmin.password
+		});
 	}
 	for (const p of demoPeople) {
-		if (!(await findUserByEmail(p.email))) await createUser(systemActor, { ...p, password: demoAdmin.password });
+		if (!(await findUserByEmail(p.email)))
+			await createUser(systemActor, { ...p, password: demoAdmin.password });
 	}
 }
 
@@ -59,13 +95,21 @@ export async function demoKey(rigName: string, label: string): Promise<string> {
 	return (await createFeedKey(seedActor, await rigId(rigName), { label })).secret;
 }
 
-export async function seedDemoRuns(ingestUrl: string, log: (line: string) => void = () => {}): Promise<void> {
+export async function seedDemoRuns(
+	ingestUrl: string,
+	log: (line: string) => void = () => {}
+): Promise<void> {
 	for (const r of demoRigs) await rigId(r.name);
 	for (const run of recordedRuns) {
 		const [done] = await sqlClient()<{ n: number }[]>`
 			select count(*)::int as n from runs where client_run_id = ${run.clientRunId} and status = 'ended'`;
 		if (done.n > 0) continue;
 		log(`recording demo run "${run.runName}"`);
-		await runSimulatedRig({ url: ingestUrl, key: await demoKey(run.rig, 'demo seed'), speed: 0, ...run });
+		await runSimulatedRig({
+			url: ingestUrl,
+			key: await demoKey(run.rig, 'demo seed'),
+			speed: 0,
+			...run
+		});
 	}
 }

@@ -38,7 +38,12 @@ buildIfStale();
 const app = spawn(process.execPath, ['--import', 'tsx', resolve(root, 'server-ws/server.ts')], {
 	cwd: root,
 	stdio: ['ignore', 'inherit', 'inherit'],
-	env: { ...process.env, PORT: String(port), NODE_ENV: 'production', MAIL_CATCHER_PORT: process.env.MAIL_CATCHER_PORT ?? '2525' }
+	env: {
+		...process.env,
+		PORT: String(port),
+		NODE_ENV: 'production',
+		MAIL_CATCHER_PORT: process.env.MAIL_CATCHER_PORT ?? '2525'
+	}
 });
 const stopping = new AbortController();
 for (const sig of ['SIGINT', 'SIGTERM'] as const) {
@@ -71,13 +76,25 @@ console.log(
 
 if (process.env.SKEIN_DEMO_LIVE !== 'off') {
 	const key = await liveDemoKey();
-	log(`${liveDemo.rig} is streaming live (${liveDemo.scenario}); SKEIN_DEMO_LIVE=off turns this off`);
+	log(
+		`${liveDemo.rig} is streaming live (${liveDemo.scenario}); SKEIN_DEMO_LIVE=off turns this off`
+	);
 	for (let seed = Math.floor(Date.now() / 1000) % 100_000; !stopping.signal.aborted; seed++) {
 		try {
-			await runSimulatedRig({ url: ingestUrl, key, scenario: liveDemo.scenario, seed, speed: 1, signal: stopping.signal, tags: ['live', 'demo'] });
+			await runSimulatedRig({
+				url: ingestUrl,
+				key,
+				scenario: liveDemo.scenario,
+				seed,
+				speed: 1,
+				signal: stopping.signal,
+				tags: ['live', 'demo']
+			});
 		} catch (err) {
 			if (stopping.signal.aborted) break;
-			log(`live rig stopped: ${err instanceof Error ? err.message : String(err)}; restarting in 5 s`);
+			log(
+				`live rig stopped: ${err instanceof Error ? err.message : String(err)}; restarting in 5 s`
+			);
 			await new Promise((r) => setTimeout(r, 5000));
 		}
 	}

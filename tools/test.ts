@@ -34,7 +34,8 @@ function ensureChromium() {
 }
 
 async function freshDatabase(name: string): Promise<string> {
-	const base = process.env.SKEIN_TEST_DATABASE_URL ?? (startCluster(testCluster), clusterUrl(testCluster));
+	const base =
+		process.env.SKEIN_TEST_DATABASE_URL ?? (startCluster(testCluster), clusterUrl(testCluster));
 	const url = new URL(base);
 	url.pathname = `/${name}`;
 	await dropDatabase(url.toString());
@@ -48,7 +49,11 @@ const env = { ...process.env, NODE_ENV: 'test', VITE_CONFIG_NATIVE_IGNORE_WARNIN
 if (want('check')) {
 	step('svelte-check');
 	const r = spawnSync('npx', ['svelte-kit', 'sync'], { cwd: root, stdio: 'inherit', env });
-	const c = spawnSync('npx', ['svelte-check', '--tsconfig', './tsconfig.json', '--output', 'human'], { cwd: root, stdio: 'inherit', env });
+	const c = spawnSync(
+		'npx',
+		['svelte-check', '--tsconfig', './tsconfig.json', '--output', 'human'],
+		{ cwd: root, stdio: 'inherit', env }
+	);
 	if (r.status !== 0 || c.status !== 0) {
 		totals.failed += 1;
 		process.stdout.write('svelte-check reported errors\n');
@@ -62,13 +67,22 @@ if (want('vitest')) {
 	step('vitest: unit and integration');
 	const url = await freshDatabase('skein_test');
 	const report = resolve(out, 'vitest.json');
-	const r = spawnSync('npx', ['vitest', 'run', '--reporter=default', '--reporter=json', `--outputFile.json=${report}`], {
-		cwd: root,
-		stdio: 'inherit',
-		env: { ...env, DATABASE_URL: url }
-	});
+	const r = spawnSync(
+		'npx',
+		['vitest', 'run', '--reporter=default', '--reporter=json', `--outputFile.json=${report}`],
+		{
+			cwd: root,
+			stdio: 'inherit',
+			env: { ...env, DATABASE_URL: url }
+		}
+	);
 	if (existsSync(report)) {
-		const j = JSON.parse(readFileSync(report, 'utf8')) as { numPassedTests: number; numFailedTests: number; numPendingTests: number; numTodoTests: number };
+		const j = JSON.parse(readFileSync(report, 'utf8')) as {
+			numPassedTests: number;
+			numFailedTests: number;
+			numPendingTests: number;
+			numTodoTests: number;
+		};
 		totals.passed += j.numPassedTests;
 		totals.failed += j.numFailedTests;
 		totals.skipped += j.numPendingTests + j.numTodoTests;
@@ -87,7 +101,9 @@ if (want('e2e')) {
 		env: { ...env, DATABASE_URL: url, PLAYWRIGHT_JSON_OUTPUT_NAME: report }
 	});
 	if (existsSync(report)) {
-		const j = JSON.parse(readFileSync(report, 'utf8')) as { stats: { expected: number; unexpected: number; skipped: number; flaky: number } };
+		const j = JSON.parse(readFileSync(report, 'utf8')) as {
+			stats: { expected: number; unexpected: number; skipped: number; flaky: number };
+		};
 		totals.passed += j.stats.expected + j.stats.flaky;
 		totals.failed += j.stats.unexpected;
 		totals.skipped += j.stats.skipped;

@@ -124,7 +124,9 @@ export class IngestEndpoint {
 					refuse(socket, 503, 'server is shutting down');
 					return;
 				}
-				this.#wss.handleUpgrade(req, socket, head, (ws) => this.#accept(ws, resolution.rig, req.socket.remoteAddress ?? null));
+				this.#wss.handleUpgrade(req, socket, head, (ws) =>
+					this.#accept(ws, resolution.rig, req.socket.remoteAddress ?? null)
+				);
 			},
 			(error: unknown) => {
 				this.#ctx.onError(error, 'resolving a feed key failed');

@@ -154,7 +154,14 @@ export class RunChannel {
 		}
 		for (const f of frames) {
 			const frame: Frame = f.frame;
-			pubsub.publish(this.runId, { kind: 'frame', runId: this.runId, seq: f.seq, t: f.t, frame, metrics: frameMetricsOf(frame) });
+			pubsub.publish(this.runId, {
+				kind: 'frame',
+				runId: this.runId,
+				seq: f.seq,
+				t: f.t,
+				frame,
+				metrics: frameMetricsOf(frame)
+			});
 		}
 	}
 

@@ -5,7 +5,13 @@
  * from the database every 2 s while anyone watches the board (a run streamed by another process shows too).
  */
 import type { WebSocket } from 'ws';
-import { BOARD_HZ, RateMeter, quietTile, type BoardRun, type LiveRunInfo } from '../../src/lib/viewer/live-protocol';
+import {
+	BOARD_HZ,
+	RateMeter,
+	quietTile,
+	type BoardRun,
+	type LiveRunInfo
+} from '../../src/lib/viewer/live-protocol';
 import type { PubSub, RunEvent } from '../pubsub';
 import { encode } from './encode';
 import type { LiveViewer } from './viewer';
@@ -41,7 +47,10 @@ export class BoardHub {
 		this.#viewers.add(viewer);
 		if (this.#timers.length === 0) {
 			this.#polled = this.#poll();
-			this.#timers = [setInterval(() => void this.#poll(), POLL_MS), setInterval(() => this.#tick(), 1000 / (this.#o.hz ?? BOARD_HZ))];
+			this.#timers = [
+				setInterval(() => void this.#poll(), POLL_MS),
+				setInterval(() => this.#tick(), 1000 / (this.#o.hz ?? BOARD_HZ))
+			];
 			for (const t of this.#timers) t.unref();
 		}
 		await this.#polled;
@@ -80,7 +89,8 @@ export class BoardHub {
 		for (const info of live) {
 			const known = this.#runs.get(info.id);
 			if (known) {
-				if (known.summary.state !== info.state) ((known.summary.state = info.state), (this.#dirty = true));
+				if (known.summary.state !== info.state)
+					((known.summary.state = info.state), (this.#dirty = true));
 				continue;
 			}
 			this.#track(info);
@@ -112,7 +122,9 @@ export class BoardHub {
 	}
 
 	#message(): Uint8Array {
-		const runs = [...this.#runs.values()].map((r) => r.summary).sort((a, b) => a.rig.localeCompare(b.rig) || a.name.localeCompare(b.name));
+		const runs = [...this.#runs.values()]
+			.map((r) => r.summary)
+			.sort((a, b) => a.rig.localeCompare(b.rig) || a.name.localeCompare(b.name));
 		return encode({ type: 'board', now: Date.now(), runs });
 	}
 

@@ -24,7 +24,9 @@ function info(row: RunRow): LiveRunInfo {
 export const postgresLiveDirectory: LiveDirectory = {
 	async authenticate(sessionId) {
 		const found = await validateSession(sessionId);
-		return found ? { sessionId: found.session.id, userId: found.user.id, role: found.user.role } : null;
+		return found
+			? { sessionId: found.session.id, userId: found.user.id, role: found.user.role }
+			: null;
 	},
 	async findRun(runId) {
 		const row = await getRun(runId);

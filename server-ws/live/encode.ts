@@ -5,11 +5,18 @@
 import { Packr } from 'msgpackr';
 import type { FrameMetrics } from '../../src/lib/metrics/frame';
 import type { Frame } from '../../src/lib/protocol/types';
-import type { BoardMessage, HelloMessage, PongMessage, StateMessage } from '../../src/lib/viewer/live-protocol';
+import type {
+	BoardMessage,
+	HelloMessage,
+	PongMessage,
+	StateMessage
+} from '../../src/lib/viewer/live-protocol';
 
 const packr = new Packr({ useRecords: false, variableMapSize: true });
 
-export function encode(message: HelloMessage | StateMessage | PongMessage | BoardMessage): Uint8Array {
+export function encode(
+	message: HelloMessage | StateMessage | PongMessage | BoardMessage
+): Uint8Array {
 	return packr.pack(message);
 }
 
@@ -21,7 +28,13 @@ function defined<T extends object>(o: T): T {
 }
 
 /** The frame message without `type`, `skipped` and `quarantined`: a map of 5 entries. */
-export function frameBody(seq: number, t: number, committedAt: number, frame: Frame, metrics: FrameMetrics | null): Uint8Array {
+export function frameBody(
+	seq: number,
+	t: number,
+	committedAt: number,
+	frame: Frame,
+	metrics: FrameMetrics | null
+): Uint8Array {
 	return packr.pack({ seq, t, committed_at: committedAt, frame: defined(frame), metrics });
 }
 
@@ -33,12 +46,20 @@ function mapHeader(bytes: Uint8Array): { entries: number; length: number } {
 	const b = bytes[0];
 	if (b >= 0x80 && b <= 0x8f) return { entries: b & 0x0f, length: 1 };
 	if (b === 0xde) return { entries: (bytes[1] << 8) | bytes[2], length: 3 };
-	if (b === 0xdf) return { entries: ((bytes[1] << 24) >>> 0) + ((bytes[2] << 16) | (bytes[3] << 8) | bytes[4]), length: 5 };
+	if (b === 0xdf)
+		return {
+			entries: ((bytes[1] << 24) >>> 0) + ((bytes[2] << 16) | (bytes[3] << 8) | bytes[4]),
+			length: 5
+		};
 	throw new Error('not a MessagePack map');
 }
 
 /** One flat map: type, skipped, quarantined, then the body's entries. */
-export function frameWithCounts(body: Uint8Array, skipped: number, quarantined: number): Uint8Array {
+export function frameWithCounts(
+	body: Uint8Array,
+	skipped: number,
+	quarantined: number
+): Uint8Array {
 	const head = countsHead(skipped, quarantined);
 	const h = mapHeader(head);
 	const b = mapHeader(body);

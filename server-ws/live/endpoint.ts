@@ -71,7 +71,8 @@ class RunHub {
 				for (const v of this.viewers) v.noteQuarantined();
 			} else {
 				const bytes = encode({ type: 'state', state: event.state, at: Date.now() });
-				for (const v of this.viewers) v.offerState(bytes, event.state === 'ended' ? () => onEnded(v) : undefined);
+				for (const v of this.viewers)
+					v.offerState(bytes, event.state === 'ended' ? () => onEnded(v) : undefined);
 			}
 		});
 	}
@@ -82,9 +83,17 @@ class RunHub {
 }
 
 export class LiveEndpoint {
-	#o: LiveEndpointOptions & { sessionCookie: string; onError: (error: unknown, context: string) => void };
+	#o: LiveEndpointOptions & {
+		sessionCookie: string;
+		onError: (error: unknown, context: string) => void;
+	};
 	#pubsub: PubSub<RunEvent>;
-	#wss = new WebSocketServer({ noServer: true, maxPayload: 4096, perMessageDeflate: false, clientTracking: false });
+	#wss = new WebSocketServer({
+		noServer: true,
+		maxPayload: 4096,
+		perMessageDeflate: false,
+		clientTracking: false
+	});
 	#hubs = new Map<string, RunHub>();
 	#board: BoardHub;
 	#connections = new Set<Connection>();
@@ -124,7 +133,8 @@ export class LiveEndpoint {
 		const path = q === -1 ? url : url.slice(0, q);
 		let runId: string | null;
 		if (path === LIVE_PATH || path === `${LIVE_PATH}/`) runId = null;
-		else if (path.startsWith(`${LIVE_PATH}/`) && !path.slice(LIVE_PATH.length + 1).includes('/')) runId = decodeURIComponent(path.slice(LIVE_PATH.length + 1));
+		else if (path.startsWith(`${LIVE_PATH}/`) && !path.slice(LIVE_PATH.length + 1).includes('/'))
+			runId = decodeURIComponent(path.slice(LIVE_PATH.length + 1));
 		else return false;
 		socket.on('error', () => socket.destroy());
 		if (this.#closed) {
@@ -148,16 +158,30 @@ export class LiveEndpoint {
 		return true;
 	}
 
-	async #admit(req: IncomingMessage, socket: Duplex, head: Buffer, sessionId: string, runId: string | null) {
+	async #admit(
+		req: IncomingMessage,
+		socket: Duplex,
+		head: Buffer,
+		sessionId: string,
+		runId: string | null
+	) {
 		const who = await this.#o.directory.authenticate(sessionId);
 		if (who === null) return refuse(socket, 401, 'session expired or signed out: sign in again');
-		if (!can(who.role, 'runs:read')) return refuse(socket, 403, `your role (${who.role}) may not read runs`);
+		if (!can(who.role, 'runs:read'))
+			return refuse(socket, 403, `your role (${who.role}) may not read runs`);
 		if (runId !== null && !uuid.test(runId)) return refuse(socket, 404, 'no such run');
 		if (socket.destroyed) return;
 
 		const viewer = new LiveViewer({ runId, sessionId, countsInFrames: runId !== null });
 		if (runId === null) {
-			this.#upgrade(req, socket, head, viewer, (ws) => void this.#board.add(viewer, ws), () => this.#board.remove(viewer));
+			this.#upgrade(
+				req,
+				socket,
+				head,
+				viewer,
+				(ws) => void this.#board.add(viewer, ws),
+				() => this.#board.remove(viewer)
+			);
 			return;
 		}
 		// subscribe before reading the run, so nothing committed in between is missed
@@ -176,10 +200,24 @@ export class LiveEndpoint {
 			return;
 		}
 		const hello = encode({ type: 'hello', protocol: LIVE_PROTOCOL, run, now: Date.now() });
-		this.#upgrade(req, socket, head, viewer, (ws) => viewer.attach(ws, hello), () => this.#leave(runId, viewer));
+		this.#upgrade(
+			req,
+			socket,
+			head,
+			viewer,
+			(ws) => viewer.attach(ws, hello),
+			() => this.#leave(runId, viewer)
+		);
 	}
 
-	#upgrade(req: IncomingMessage, socket: Duplex, head: Buffer, viewer: LiveViewer, start: (ws: WebSocket) => void, stop: () => void) {
+	#upgrade(
+		req: IncomingMessage,
+		socket: Duplex,
+		head: Buffer,
+		viewer: LiveViewer,
+		start: (ws: WebSocket) => void,
+		stop: () => void
+	) {
 		this.#wss.handleUpgrade(req, socket, head, (ws) => {
 			const conn: Connection = { viewer, ws, alive: true };
 			this.#connections.add(conn);
@@ -203,7 +241,14 @@ export class LiveEndpoint {
 		} catch {
 			return;
 		}
-		if (typeof msg === 'object' && msg !== null && 'type' in msg && msg.type === 'ping' && 'c' in msg && typeof msg.c === 'number') {
+		if (
+			typeof msg === 'object' &&
+			msg !== null &&
+			'type' in msg &&
+			msg.type === 'ping' &&
+			'c' in msg &&
+			typeof msg.c === 'number'
+		) {
 			conn.viewer.offerPong(encode({ type: 'pong', c: msg.c, s: Date.now() }));
 		}
 	}
@@ -211,7 +256,9 @@ export class LiveEndpoint {
 	#join(runId: string, viewer: LiveViewer) {
 		let hub = this.#hubs.get(runId);
 		if (!hub) {
-			hub = new RunHub(this.#pubsub, runId, (v) => this.#closeViewer(v, LiveCloseCode.runEnded, 'run ended'));
+			hub = new RunHub(this.#pubsub, runId, (v) =>
+				this.#closeViewer(v, LiveCloseCode.runEnded, 'run ended')
+			);
 			this.#hubs.set(runId, hub);
 		}
 		hub.viewers.add(viewer);
@@ -259,8 +306,10 @@ export class LiveEndpoint {
 				continue;
 			}
 			for (const c of conns) {
-				if (who === null) closeWithin(c.ws, LiveCloseCode.sessionInvalid, 'session no longer valid');
-				else if (!can(who.role, 'runs:read')) closeWithin(c.ws, LiveCloseCode.forbidden, 'role may not read runs');
+				if (who === null)
+					closeWithin(c.ws, LiveCloseCode.sessionInvalid, 'session no longer valid');
+				else if (!can(who.role, 'runs:read'))
+					closeWithin(c.ws, LiveCloseCode.forbidden, 'role may not read runs');
 			}
 		}
 	}
@@ -270,7 +319,8 @@ export class LiveEndpoint {
 		this.#closed = true;
 		for (const t of this.#timers) clearInterval(t);
 		this.#unregister();
-		for (const c of this.#connections) closeWithin(c.ws, LiveCloseCode.goingAway, 'server shutting down');
+		for (const c of this.#connections)
+			closeWithin(c.ws, LiveCloseCode.goingAway, 'server shutting down');
 		this.#board.close();
 		for (const hub of this.#hubs.values()) hub.close();
 		this.#hubs.clear();

@@ -40,7 +40,12 @@ export class LiveViewer {
 	/** frame bodies do not carry counts; the board's messages are sent as they are */
 	#countsInFrames: boolean;
 
-	constructor(opts: { runId: string | null; sessionId: string; countsInFrames: boolean; highWater?: number }) {
+	constructor(opts: {
+		runId: string | null;
+		sessionId: string;
+		countsInFrames: boolean;
+		highWater?: number;
+	}) {
 		this.runId = opts.runId;
 		this.#highWater = opts.highWater ?? 64 * 1024;
 		this.sessionId = opts.sessionId;
@@ -85,7 +90,13 @@ export class LiveViewer {
 	}
 
 	stats(): LiveViewerStats {
-		return { run: this.runId, pending: this.pending, buffered: this.#ws?.bufferedAmount ?? 0, sent: this.sent, skipped: this.skippedTotal };
+		return {
+			run: this.runId,
+			pending: this.pending,
+			buffered: this.#ws?.bufferedAmount ?? 0,
+			sent: this.sent,
+			skipped: this.skippedTotal
+		};
 	}
 
 	#put(slot: Slot, p: Pending) {
@@ -99,7 +110,8 @@ export class LiveViewer {
 			if (ws === null || ws.readyState !== ws.OPEN || this.#slots.size === 0) return;
 			if (this.#inFlight > 0 && ws.bufferedAmount >= this.#highWater) return;
 			let next: [Slot, Pending] | null = null;
-			for (const entry of this.#slots) if (next === null || entry[1].order < next[1].order) next = entry;
+			for (const entry of this.#slots)
+				if (next === null || entry[1].order < next[1].order) next = entry;
 			if (next === null) return;
 			const [slot, p] = next;
 			this.#slots.delete(slot);

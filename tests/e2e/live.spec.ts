@@ -18,7 +18,9 @@ async function makeRigWithKey(tag: string) {
 	const sql = postgres(process.env.DATABASE_URL!, { max: 1, onnotice: () => {} });
 	try {
 		const name = `${tag}-${Date.now().toString(36)}`;
-		const [rig] = await sql<{ id: string }[]>`insert into rigs (name) values (${name}) returning id`;
+		const [rig] = await sql<
+			{ id: string }[]
+		>`insert into rigs (name) values (${name}) returning id`;
 		const secret = newSecret('skf');
 		await sql`insert into feed_keys (rig_id, label, prefix, key_hash) values (${rig.id}, 'e2e', ${secretPrefix(secret)}, ${hashSecret(secret)})`;
 		return { name, secret };
@@ -36,7 +38,8 @@ async function signIn(page: Page, who: { email: string; password: string }) {
 }
 
 const sceneSeq = (page: Page) => page.evaluate(() => window.__skeinScene?.seq ?? null);
-const liveSeq = async (page: Page) => Number((await page.getByTestId('live-seq').textContent())!.replace('#', ''));
+const liveSeq = async (page: Page) =>
+	Number((await page.getByTestId('live-seq').textContent())!.replace('#', ''));
 
 test.beforeAll(async () => {
 	const rig = await makeRigWithKey('e2e-live');
@@ -57,7 +60,9 @@ test.afterAll(async () => {
 	await streaming;
 });
 
-test('the Live board shows the streaming run; its tile follows it live on the Run screen until it ends', async ({ page }) => {
+test('the Live board shows the streaming run; its tile follows it live on the Run screen until it ends', async ({
+	page
+}) => {
 	await signIn(page, viewer);
 	await page.goto('/live');
 	const tile = page.getByTestId('live-tile').filter({ hasText: runName });
@@ -73,7 +78,9 @@ test('the Live board shows the streaming run; its tile follows it live on the Ru
 	await expect.poll(() => liveSeq(page), { timeout: 10_000 }).toBeGreaterThan(first + 5);
 	// the scene draws the frames it follows
 	const drawn = (await sceneSeq(page)) ?? -1;
-	await expect.poll(async () => (await sceneSeq(page)) ?? -1, { timeout: 10_000 }).toBeGreaterThan(drawn);
+	await expect
+		.poll(async () => (await sceneSeq(page)) ?? -1, { timeout: 10_000 })
+		.toBeGreaterThan(drawn);
 	await expect(page.getByTestId('live-latency')).toHaveText(/\d+ ms/);
 	if (process.env.LIVE_SHOTS) await page.screenshot({ path: 'test-results/live-following.png' });
 
@@ -88,7 +95,9 @@ test('the Live board shows the streaming run; its tile follows it live on the Ru
 	// L returns to the live edge
 	await page.keyboard.press('l');
 	await expect(bar).toHaveAttribute('data-state', 'following');
-	await expect.poll(async () => (await sceneSeq(page)) ?? -1, { timeout: 10_000 }).toBeGreaterThan(seqWhilePaused);
+	await expect
+		.poll(async () => (await sceneSeq(page)) ?? -1, { timeout: 10_000 })
+		.toBeGreaterThan(seqWhilePaused);
 
 	// the rig stops: the run ends while watched
 	stop.abort();

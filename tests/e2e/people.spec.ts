@@ -15,7 +15,9 @@ async function signOut(page: Page) {
 	await expect(page).toHaveURL(/\/sign-in/);
 }
 
-test('sign in, invite a person through the mail catcher, sign in as them, sign out', async ({ page }) => {
+test('sign in, invite a person through the mail catcher, sign in as them, sign out', async ({
+	page
+}) => {
 	await signIn(page, admin.email, admin.password);
 	await expect(page.getByRole('heading', { name: 'Runs', exact: true })).toBeVisible();
 

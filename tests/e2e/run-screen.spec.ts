@@ -20,7 +20,9 @@ async function makeRigWithKey(tag: string) {
 	const sql = postgres(process.env.DATABASE_URL!, { max: 1, onnotice: () => {} });
 	try {
 		const name = `${tag}-${Date.now().toString(36)}`;
-		const [rig] = await sql<{ id: string }[]>`insert into rigs (name) values (${name}) returning id`;
+		const [rig] = await sql<
+			{ id: string }[]
+		>`insert into rigs (name) values (${name}) returning id`;
 		const secret = newSecret('skf');
 		await sql`insert into feed_keys (rig_id, label, prefix, key_hash) values (${rig.id}, 'e2e', ${secretPrefix(secret)}, ${hashSecret(secret)})`;
 		return { name, secret };
@@ -51,17 +53,28 @@ test.beforeAll(async () => {
 		url: base.replace('http', 'ws') + '/ingest/v1',
 		key: rig.secret,
 		clientRunId: rig.name,
-		run: { name: 'lanternfall crossing e2e', state_fields: [...STATE_FIELDS], measurement_fields: [...MEASUREMENT_FIELDS], tags: ['e2e', 'crossing'] }
+		run: {
+			name: 'lanternfall crossing e2e',
+			state_fields: [...STATE_FIELDS],
+			measurement_fields: [...MEASUREMENT_FIELDS],
+			tags: ['e2e', 'crossing']
+		}
 	});
 	runId = (await client.start()).runId;
-	for (const step of simulate('lanternfall-crossing', { seed: 7, durationS: 60, startEpoch: Math.floor(Date.now() / 1000) - 600 })) {
+	for (const step of simulate('lanternfall-crossing', {
+		seed: 7,
+		durationS: 60,
+		startEpoch: Math.floor(Date.now() / 1000) - 600
+	})) {
 		const { seq: _seq, ...frame } = step.frame;
 		client.send(frame);
 	}
 	await client.close();
 });
 
-test('open a run: play, pause, step, seek by URL, layers, select, pin and reopen by link', async ({ page }) => {
+test('open a run: play, pause, step, seek by URL, layers, select, pin and reopen by link', async ({
+	page
+}) => {
 	test.setTimeout(120_000);
 	await signIn(page, admin);
 	await page.goto('/runs');
@@ -88,7 +101,9 @@ test('open a run: play, pause, step, seek by URL, layers, select, pin and reopen
 	const stepped = seconds(await playhead(page).innerText());
 	expect(stepped - played).toBeLessThanOrEqual(0.051);
 	await page.keyboard.press('Shift+ArrowRight');
-	await expect.poll(async () => seconds(await playhead(page).innerText())).toBeCloseTo(stepped + 1, 1);
+	await expect
+		.poll(async () => seconds(await playhead(page).innerText()))
+		.toBeCloseTo(stepped + 1, 1);
 
 	await page.goto(`/runs/${runId}?t=30`);
 	await expect(playhead(page)).toHaveText('T+00:30.000');
@@ -117,7 +132,9 @@ test('open a run: play, pause, step, seek by URL, layers, select, pin and reopen
 	await dialog.getByRole('button', { name: 'Pin', exact: true }).click();
 	await expect(dialog.locator('[data-field-error="title"]')).toContainText('title');
 	await dialog.getByLabel('Title').fill('Crossing pedestrian confirmed late');
-	await dialog.getByLabel('Note').fill('Estimate appears about a second after the truth object enters the view.');
+	await dialog
+		.getByLabel('Note')
+		.fill('Estimate appears about a second after the truth object enters the view.');
 	await dialog.getByLabel('Category').selectOption('late confirmation');
 	await dialog.getByLabel('Severity').selectOption('high');
 	await dialog.getByRole('button', { name: 'Pin', exact: true }).click();
@@ -151,10 +168,19 @@ test('a viewer sees pins but has no pin button, and the API refuses', async ({ p
 	await page.keyboard.press('p');
 	await expect(page.getByTestId('pin-dialog')).toHaveCount(0);
 	const res = await page.request.post(`/api/runs/${runId}/pins`, {
-		data: { title: 'x', category: 'other', severity: 'low', t: 1, view: { zoom: 1, cx: 0, cy: 0, layers: [] } },
+		data: {
+			title: 'x',
+			category: 'other',
+			severity: 'low',
+			t: 1,
+			view: { zoom: 1, cx: 0, cy: 0, layers: [] }
+		},
 		headers: { origin: base }
 	});
 	expect(res.status()).toBe(403);
-	const form = await page.request.post(`/runs/${runId}?/pin`, { form: { title: 'x' }, headers: { origin: base } });
+	const form = await page.request.post(`/runs/${runId}?/pin`, {
+		form: { title: 'x' },
+		headers: { origin: base }
+	});
 	expect(form.status()).toBe(403);
 });

@@ -26,11 +26,15 @@ function walk(dir: string): RouteFile[] {
 	const routeId = id === '/' ? '/' : id;
 	if (files.includes('+server.ts')) {
 		const src = readFileSync(join(dir, '+server.ts'), 'utf8');
-		const methods = [...src.matchAll(/export const (GET|POST|PUT|PATCH|DELETE)\b/g)].map((m) => m[1]);
+		const methods = [...src.matchAll(/export const (GET|POST|PUT|PATCH|DELETE)\b/g)].map(
+			(m) => m[1]
+		);
 		out.push({ id: routeId, kind: 'endpoint', methods, actions: [] });
 	}
 	if (files.includes('+page.svelte')) {
-		const server = files.includes('+page.server.ts') ? readFileSync(join(dir, '+page.server.ts'), 'utf8') : '';
+		const server = files.includes('+page.server.ts')
+			? readFileSync(join(dir, '+page.server.ts'), 'utf8')
+			: '';
 		const block = server.split('export const actions')[1] ?? '';
 		const actions = [...block.matchAll(/^\t(\w+): async/gm)].map((m) => m[1]);
 		out.push({ id: routeId, kind: 'page', methods: ['GET'], actions });
@@ -55,7 +59,10 @@ function concretePath(id: string): string {
 	);
 }
 
-function expected(rule: Rule | undefined, role: Role | null): 'allowed' | 'anonymous' | 'forbidden' | 'unroutable' {
+function expected(
+	rule: Rule | undefined,
+	role: Role | null
+): 'allowed' | 'anonymous' | 'forbidden' | 'unroutable' {
 	if (rule === undefined) return 'unroutable';
 	if (rule === 'public') return 'allowed';
 	if (role === null) return 'anonymous';
@@ -138,7 +145,9 @@ describe('the matrix holds over HTTP', () => {
 			} else if (want === 'forbidden') {
 				expect(res.status, `${who} ${method} ${path}${search}`).toBe(403);
 			} else {
-				expect([401, 403], `${who} ${method} ${path}${search} should pass the guard`).not.toContain(res.status);
+				expect([401, 403], `${who} ${method} ${path}${search} should pass the guard`).not.toContain(
+					res.status
+				);
 			}
 		}
 	});

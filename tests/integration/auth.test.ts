@@ -61,7 +61,8 @@ describe('sign in and out', () => {
 	it('throttles an account after repeated failures, with a clear message, even for the right password', async () => {
 		const p = await makePerson('viewer', 'throttle');
 		const c = new Browserish(base);
-		for (let i = 0; i < 5; i++) expect((await c.signIn(p.email, 'wrong-password!')).status).toBe(400);
+		for (let i = 0; i < 5; i++)
+			expect((await c.signIn(p.email, 'wrong-password!')).status).toBe(400);
 		const res = await c.signIn(p.email, p.password);
 		expect(res.status).toBe(429);
 		expect(await res.text()).toContain('Too many failed sign-ins for this account');
@@ -71,7 +72,10 @@ describe('sign in and out', () => {
 	it('refuses cross-site form posts', async () => {
 		const res = await fetch(`${base}/sign-in`, {
 			method: 'POST',
-			headers: { origin: 'http://evil.example', 'content-type': 'application/x-www-form-urlencoded' },
+			headers: {
+				origin: 'http://evil.example',
+				'content-type': 'application/x-www-form-urlencoded'
+			},
 			body: 'email=a%40b.test&password=x'
 		});
 		expect(res.status).toBe(403);
@@ -88,7 +92,9 @@ describe('sessions and passwords', () => {
 		const page = await (await first.get('/settings')).text();
 		const handles = [...page.matchAll(/name="handle" value="([0-9a-f]{20})"/g)].map((m) => m[1]);
 		expect(handles).toHaveLength(1); // the other browser's; this one is marked "this browser"
-		expect((await first.postForm('/settings?/revokeSession', { handle: handles[0] })).status).toBe(200);
+		expect((await first.postForm('/settings?/revokeSession', { handle: handles[0] })).status).toBe(
+			200
+		);
 		expect((await second.get('/runs')).status).toBe(303);
 		expect((await first.get('/runs')).status).toBe(200);
 		const bad = await first.postForm('/settings?/revokeSession', { handle: 'zz' });
@@ -101,14 +107,30 @@ describe('sessions and passwords', () => {
 		const b = new Browserish(base);
 		await a.signIn(p.email, p.password);
 		await b.signIn(p.email, p.password);
-		const wrong = await a.postForm('/settings?/password', { current: 'nope', password: 'a-new-password-1', confirm: 'a-new-password-1' });
+		const wrong = await a.postForm('/settings?/password', {
+			current: 'nope',
+			password: 'a-new-password-1',
+			confirm: 'a-new-password-1'
+		});
 		expect(wrong.status).toBe(400);
-		const mismatch = await a.postForm('/settings?/password', { current: p.password, password: 'a-new-password-1', confirm: 'different-1234' });
+		const mismatch = await a.postForm('/settings?/password', {
+			current: p.password,
+			password: 'a-new-password-1',
+			confirm: 'different-1234'
+		});
 		expect(mismatch.status).toBe(400);
 		expect(await mismatch.text()).toContain('Passwords do not match');
-		const short = await a.postForm('/settings?/password', { current: p.password, password: 'short', confirm: 'short' });
+		const short = await a.postForm('/settings?/password', {
+			current: p.password,
+			password: 'short',
+			confirm: 'short'
+		});
 		expect(await short.text()).toContain('At least 10 characters');
-		const ok = await a.postForm('/settings?/password', { current: p.password, password: 'a-new-password-1', confirm: 'a-new-password-1' });
+		const ok = await a.postForm('/settings?/password', {
+			current: p.password,
+			password: 'a-new-password-1',
+			confirm: 'a-new-password-1'
+		});
 		expect(ok.status).toBe(200);
 		expect((await a.get('/runs')).status).toBe(200);
 		expect((await b.get('/runs')).status).toBe(303);
@@ -125,11 +147,17 @@ describe('sessions and passwords', () => {
 		expect(link.pathname).toMatch(/^\/reset\/skr_/);
 		const page = await anon.get(link.pathname);
 		expect(await page.text()).toContain('Choose a new password');
-		const done = await anon.postForm(link.pathname, { password: 'reset-password-9', confirm: 'reset-password-9' });
+		const done = await anon.postForm(link.pathname, {
+			password: 'reset-password-9',
+			confirm: 'reset-password-9'
+		});
 		expect(done.status).toBe(303);
 		expect((await new Browserish(base).signIn(p.email, 'reset-password-9')).status).toBe(303);
 		// single use
-		const again = await anon.postForm(link.pathname, { password: 'another-password-9', confirm: 'another-password-9' });
+		const again = await anon.postForm(link.pathname, {
+			password: 'another-password-9',
+			confirm: 'another-password-9'
+		});
 		expect(again.status).toBe(400);
 		expect(await again.text()).toContain('not valid');
 		expect(await auditActions(p.email)).toContain('password.reset');
@@ -140,7 +168,9 @@ describe('sessions and passwords', () => {
 		const res = await new Browserish(base).postForm('/forgot', { email });
 		expect(res.status).toBe(200);
 		expect(await res.text()).toContain('If');
-		const list = (await (await admin.json('/api/dev/mail', 'GET')).json()) as { messages: { to: string[] }[] };
+		const list = (await (await admin.json('/api/dev/mail', 'GET')).json()) as {
+			messages: { to: string[] }[];
+		};
 		expect(list.messages.some((m) => m.to.includes(email))).toBe(false);
 	});
 
@@ -148,8 +178,14 @@ describe('sessions and passwords', () => {
 		const p = await makePerson('viewer', 'reset-exp');
 		await new Browserish(base).postForm('/forgot', { email: p.email });
 		const { link } = await waitForMail(admin, p.email, /Reset/);
-		await db().update(schema.passwordResets).set({ expiresAt: new Date(Date.now() - 1000) }).where(eq(schema.passwordResets.userId, p.id));
-		const res = await new Browserish(base).postForm(link.pathname, { password: 'reset-password-9', confirm: 'reset-password-9' });
+		await db()
+			.update(schema.passwordResets)
+			.set({ expiresAt: new Date(Date.now() - 1000) })
+			.where(eq(schema.passwordResets.userId, p.id));
+		const res = await new Browserish(base).postForm(link.pathname, {
+			password: 'reset-password-9',
+			confirm: 'reset-password-9'
+		});
 		expect(res.status).toBe(400);
 	});
 });
@@ -165,11 +201,21 @@ describe('people: invite, roles, deactivation', () => {
 		expect(await (await guest.get(link.pathname)).text()).toContain('Join Skein');
 		const bad = await guest.postForm(link.pathname, { name: '', password: 'short', confirm: 'x' });
 		expect(bad.status).toBe(400);
-		const joined = await guest.postForm(link.pathname, { name: 'Ada Newcomer', password: 'invitee-password-1', confirm: 'invitee-password-1' });
+		const joined = await guest.postForm(link.pathname, {
+			name: 'Ada Newcomer',
+			password: 'invitee-password-1',
+			confirm: 'invitee-password-1'
+		});
 		expect(joined.status).toBe(303);
-		const me = (await (await guest.json('/api/me', 'GET')).json()) as { user: { email: string; role: string; name: string } };
+		const me = (await (await guest.json('/api/me', 'GET')).json()) as {
+			user: { email: string; role: string; name: string };
+		};
 		expect(me.user).toMatchObject({ email, role: 'engineer', name: 'Ada Newcomer' });
-		const reuse = await new Browserish(base).postForm(link.pathname, { name: 'X', password: 'invitee-password-2', confirm: 'invitee-password-2' });
+		const reuse = await new Browserish(base).postForm(link.pathname, {
+			name: 'X',
+			password: 'invitee-password-2',
+			confirm: 'invitee-password-2'
+		});
 		expect(reuse.status).toBe(400);
 	});
 
@@ -177,15 +223,27 @@ describe('people: invite, roles, deactivation', () => {
 		const email = uniqueEmail('late');
 		await admin.postForm('/people?/invite', { email, role: 'viewer' });
 		const { link } = await waitForMail(admin, email, /invited/);
-		await db().update(schema.invites).set({ expiresAt: new Date(Date.now() - 1) }).where(eq(schema.invites.email, email));
-		const res = await new Browserish(base).postForm(link.pathname, { name: 'Late', password: 'late-password-1', confirm: 'late-password-1' });
+		await db()
+			.update(schema.invites)
+			.set({ expiresAt: new Date(Date.now() - 1) })
+			.where(eq(schema.invites.email, email));
+		const res = await new Browserish(base).postForm(link.pathname, {
+			name: 'Late',
+			password: 'late-password-1',
+			confirm: 'late-password-1'
+		});
 		expect(res.status).toBe(400);
 		const p = await makePerson('viewer', 'exists');
 		const dup = await admin.postForm('/people?/invite', { email: p.email, role: 'viewer' });
 		expect(dup.status).toBe(409);
-		const badRole = await admin.json('/api/people', 'POST', { email: uniqueEmail('x'), role: 'superuser' });
+		const badRole = await admin.json('/api/people', 'POST', {
+			email: uniqueEmail('x'),
+			role: 'superuser'
+		});
 		expect(badRole.status).toBe(422);
-		const body = (await badRole.json()) as { error: { code: string; details: Record<string, string> } };
+		const body = (await badRole.json()) as {
+			error: { code: string; details: Record<string, string> };
+		};
 		expect(body.error.code).toBe('invalid');
 		expect(body.error.details.role).toContain('Role must be one of');
 	});
@@ -195,15 +253,21 @@ describe('people: invite, roles, deactivation', () => {
 		const c = new Browserish(base);
 		await c.signIn(p.email, p.password);
 		expect((await admin.json(`/api/people/${p.id}`, 'PATCH', { role: 'triage' })).status).toBe(200);
-		expect(((await (await c.json('/api/me', 'GET')).json()) as { user: { role: string } }).user.role).toBe('triage');
+		expect(
+			((await (await c.json('/api/me', 'GET')).json()) as { user: { role: string } }).user.role
+		).toBe('triage');
 		const badPatch = await admin.json(`/api/people/${p.id}`, 'PATCH', { role: 'triage', extra: 1 });
 		expect(badPatch.status).toBe(422);
 		const notJson = await admin.json(`/api/people/${p.id}`, 'PATCH', '{nope');
 		expect(notJson.status).toBe(400);
-		expect((await admin.postForm('/people?/active', { id: p.id, active: 'false' })).status).toBe(200);
+		expect((await admin.postForm('/people?/active', { id: p.id, active: 'false' })).status).toBe(
+			200
+		);
 		expect((await c.get('/runs')).status).toBe(303);
 		expect((await new Browserish(base).signIn(p.email, p.password)).status).toBe(400);
-		expect(await auditActions(p.email)).toEqual(expect.arrayContaining(['person.set_role', 'person.deactivate']));
+		expect(await auditActions(p.email)).toEqual(
+			expect.arrayContaining(['person.set_role', 'person.deactivate'])
+		);
 	});
 });
 
@@ -212,27 +276,42 @@ describe('personal API tokens', () => {
 		const p = await makePerson('viewer', 'token');
 		const c = new Browserish(base);
 		await c.signIn(p.email, p.password);
-		const created = (await (await c.json('/api/tokens', 'POST', { name: 'nightly export' })).json()) as { token: { id: string; secret: string } };
+		const created = (await (
+			await c.json('/api/tokens', 'POST', { name: 'nightly export' })
+		).json()) as { token: { id: string; secret: string } };
 		expect(created.token.secret).toMatch(/^skt_/);
-		const [row] = await db().select().from(schema.apiTokens).where(eq(schema.apiTokens.id, created.token.id));
+		const [row] = await db()
+			.select()
+			.from(schema.apiTokens)
+			.where(eq(schema.apiTokens.id, created.token.id));
 		expect(row.tokenHash).not.toContain(created.token.secret);
-		const viaToken = await fetch(`${base}/api/me`, { headers: { authorization: `Bearer ${created.token.secret}` } });
+		const viaToken = await fetch(`${base}/api/me`, {
+			headers: { authorization: `Bearer ${created.token.secret}` }
+		});
 		expect(viaToken.status).toBe(200);
 		expect(((await viaToken.json()) as { via: string }).via).toBe('token');
-		const listed = (await (await c.json('/api/tokens', 'GET')).json()) as { tokens: Record<string, unknown>[] };
+		const listed = (await (await c.json('/api/tokens', 'GET')).json()) as {
+			tokens: Record<string, unknown>[];
+		};
 		expect(JSON.stringify(listed)).not.toContain(created.token.secret);
 		expect((await c.json(`/api/tokens/${created.token.id}`, 'DELETE')).status).toBe(204);
-		const after = await fetch(`${base}/api/me`, { headers: { authorization: `Bearer ${created.token.secret}` } });
+		const after = await fetch(`${base}/api/me`, {
+			headers: { authorization: `Bearer ${created.token.secret}` }
+		});
 		expect(after.status).toBe(401);
 		expect((await c.json('/api/tokens', 'POST', { name: '' })).status).toBe(422);
-		expect((await fetch(`${base}/api/me`, { headers: { authorization: 'Bearer skt_bogus' } })).status).toBe(401);
+		expect(
+			(await fetch(`${base}/api/me`, { headers: { authorization: 'Bearer skt_bogus' } })).status
+		).toBe(401);
 	});
 
 	it('a viewer token cannot do admin work', async () => {
 		const p = await makePerson('viewer', 'tok-viewer');
 		const c = new Browserish(base);
 		await c.signIn(p.email, p.password);
-		const { token } = (await (await c.json('/api/tokens', 'POST', { name: 'x' })).json()) as { token: { secret: string } };
+		const { token } = (await (await c.json('/api/tokens', 'POST', { name: 'x' })).json()) as {
+			token: { secret: string };
+		};
 		const res = await fetch(`${base}/api/people`, {
 			method: 'POST',
 			headers: { authorization: `Bearer ${token.secret}`, 'content-type': 'application/json' },
@@ -260,4 +339,3 @@ describe('operations', () => {
 		expect((await admin.json('/api/audit?limit=0', 'GET')).status).toBe(422);
 	});
 });
-

@@ -29,7 +29,6 @@ async function storedSeqs(runId: string): Promise<{ seq: number; n: number }[]> 
 		select seq::int, count(*)::int as n from frames where run_id = ${runId} group by seq order by seq`;
 }
 
-
 describe('ingest durability', () => {
 	it('resumes after the socket is dropped at 20 random points: every frame stored once, in order, sets intact', async () => {
 		const base = inject('appUrl');
@@ -80,7 +79,13 @@ describe('ingest durability', () => {
 		const rig = await makeRigWithKey('crash');
 		const url = app.url.replace('http', 'ws') + '/ingest/v1';
 		const t0 = 1_790_200_000;
-		const first = new SkeinRigClient({ url, key: rig.secret, clientRunId: 'crash', run, backoff: { minMs: 20, maxMs: 100 } });
+		const first = new SkeinRigClient({
+			url,
+			key: rig.secret,
+			clientRunId: 'crash',
+			run,
+			backoff: { minMs: 20, maxMs: 100 }
+		});
 		const { runId } = await first.start();
 		let acked = -1;
 		first.on((e) => {
@@ -145,7 +150,10 @@ describe('ingest durability', () => {
 		const errors: string[] = [];
 		let closeCode = 0;
 		ws.on('message', (d, binary) => {
-			const m = (binary ? unpack(d as Buffer) : JSON.parse(String(d))) as { code?: string; type: string };
+			const m = (binary ? unpack(d as Buffer) : JSON.parse(String(d))) as {
+				code?: string;
+				type: string;
+			};
 			errors.push(m.code ?? m.type);
 		});
 		ws.on('close', (code) => (closeCode = code));
@@ -162,8 +170,18 @@ describe('ingest durability', () => {
 			JSON.stringify({ type: 'frame', seq: 2, t: 2, estimates: [{ x: [1, 2], P: [1, 2, 3, 1] }] }),
 			JSON.stringify({ type: 'frame', seq: 3, t: 5, estimates: [{ x: [Number.MAX_VALUE, 2] }] }),
 			JSON.stringify({ type: 'frame', seq: 4, t: 0.5 }),
-			JSON.stringify({ type: 'frame', seq: 5, t: 6, truth: Array.from({ length: 6000 }, () => ({ x: [0, 0] })) }),
-			JSON.stringify({ type: 'frame', seq: 6, t: 7, ego: { x: [[[[[[[[[[[1]]]]]]]]]]], y: 0, heading: 0 } }),
+			JSON.stringify({
+				type: 'frame',
+				seq: 5,
+				t: 6,
+				truth: Array.from({ length: 6000 }, () => ({ x: [0, 0] }))
+			}),
+			JSON.stringify({
+				type: 'frame',
+				seq: 6,
+				t: 7,
+				ego: { x: [[[[[[[[[[[1]]]]]]]]]]], y: 0, heading: 0 }
+			}),
 			JSON.stringify({ type: 'frame', seq: 99, t: 8 })
 		];
 		for (let i = 0; i < 400; i++) {

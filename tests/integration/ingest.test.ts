@@ -17,7 +17,11 @@ let base: string;
 let wsUrl: string;
 let viewer: Browserish;
 
-const run = { name: 'junction pass', state_fields: ['x', 'y', 'vx', 'vy'], measurement_fields: ['x', 'y'] };
+const run = {
+	name: 'junction pass',
+	state_fields: ['x', 'y', 'vx', 'vy'],
+	measurement_fields: ['x', 'y']
+};
 
 beforeAll(async () => {
 	base = inject('appUrl');
@@ -33,7 +37,12 @@ function frameAt(i: number, t0: number): Omit<Frame, 'seq'> {
 		ego: { x: i * 0.5, y: 0, heading: 0.01 * i },
 		measurements: [{ z: [10 + i * 0.1, 2], sensor: 'front-radar' }],
 		estimates: [
-			{ id: 'e1', x: [10 + i * 0.1, 2, 2, 0], P: [1, 0.1, 0, 0, 0.1, 1, 0, 0, 0, 0, 0.5, 0, 0, 0, 0, 0.5], r: 0.9 },
+			{
+				id: 'e1',
+				x: [10 + i * 0.1, 2, 2, 0],
+				P: [1, 0.1, 0, 0, 0.1, 1, 0, 0, 0, 0, 0.5, 0, 0, 0, 0, 0.5],
+				r: 0.9
+			},
 			{ id: 7, x: [30, -3, 0, 0], r: 0.4 }
 		],
 		truth: [{ id: 't1', x: [10 + i * 0.1, 2.05, 2, 0] }]
@@ -48,7 +57,10 @@ function frameAt(i: number, t0: number): Omit<Frame, 'seq'> {
 async function stored(runId: string) {
 	const res = await viewer.json(`/api/runs/${runId}/frames?limit=5000`, 'GET');
 	expect(res.status).toBe(200);
-	return (await res.json()) as { frames: (Frame & Record<string, unknown>)[]; next_from_seq: number | null };
+	return (await res.json()) as {
+		frames: (Frame & Record<string, unknown>)[];
+		next_from_seq: number | null;
+	};
 }
 
 describe('ingest into PostgreSQL', () => {
@@ -68,18 +80,29 @@ describe('ingest into PostgreSQL', () => {
 		expect('truth' in back.frames[1]).toBe(false);
 		expect(back.frames[2].measurements).toEqual([]);
 
-		const runRes = (await (await viewer.json(`/api/runs/${runId}`, 'GET')).json()) as { run: Record<string, unknown> };
-		expect(runRes.run).toMatchObject({ status: 'ended', frame_count: 300, next_seq: 300, rig_name: rig.rigName });
+		const runRes = (await (await viewer.json(`/api/runs/${runId}`, 'GET')).json()) as {
+			run: Record<string, unknown>;
+		};
+		expect(runRes.run).toMatchObject({
+			status: 'ended',
+			frame_count: 300,
+			next_seq: 300,
+			rig_name: rig.rigName
+		});
 		expect(runRes.run.frame_rate_hz as number).toBeCloseTo(20, 5);
 
-		const rows = await sqlClient()<{ n_truth: number | null; gospa: number | null; n_measurements: number | null }[]>`
+		const rows = await sqlClient()<
+			{ n_truth: number | null; gospa: number | null; n_measurements: number | null }[]
+		>`
 			select n_truth, gospa, n_measurements from frames where run_id = ${runId} order by seq limit 3`;
 		expect(rows[0].n_truth).toBe(1);
 		expect(rows[0].gospa).toBeGreaterThan(0);
 		expect(rows[1].n_truth).toBeNull(); // truth not reported
 		expect(rows[1].gospa).toBeNull();
 		expect(rows[2].n_measurements).toBe(0); // reported and empty
-		const [key] = await sqlClient()<{ frames_received: number; last_used_at: Date | null; last_used_ip: string | null }[]>`
+		const [key] = await sqlClient()<
+			{ frames_received: number; last_used_at: Date | null; last_used_ip: string | null }[]
+		>`
 			select frames_received::int, last_used_at, last_used_ip from feed_keys where id = ${rig.keyId}`;
 		expect(key.frames_received).toBe(300);
 		expect(key.last_used_at).not.toBeNull();
@@ -88,29 +111,51 @@ describe('ingest into PostgreSQL', () => {
 
 	it('reads frames in pages, by seq and by time, in JSON and MessagePack', async () => {
 		const rig = await makeRigWithKey('pages');
-		const client = new SkeinRigClient({ url: wsUrl, key: rig.secret, clientRunId: 'p', run, encoding: 'json' });
+		const client = new SkeinRigClient({
+			url: wsUrl,
+			key: rig.secret,
+			clientRunId: 'p',
+			run,
+			encoding: 'json'
+		});
 		const { runId } = await client.start();
 		const t0 = 1_790_000_100;
 		for (let i = 0; i < 50; i++) client.send(frameAt(i, t0));
 		await client.close();
-		const page = (await (await viewer.json(`/api/runs/${runId}/frames?from_seq=10&to_seq=30&limit=15`, 'GET')).json()) as {
+		const page = (await (
+			await viewer.json(`/api/runs/${runId}/frames?from_seq=10&to_seq=30&limit=15`, 'GET')
+		).json()) as {
 			frames: Frame[];
 			next_from_seq: number;
 		};
 		expect(page.frames.map((f) => f.seq)).toEqual(Array.from({ length: 15 }, (_, i) => 10 + i));
 		expect(page.next_from_seq).toBe(25);
-		const byTime = (await (await viewer.json(`/api/runs/${runId}/frames?from=${t0 + 1}&to=${t0 + 1.2}`, 'GET')).json()) as { frames: Frame[] };
+		const byTime = (await (
+			await viewer.json(`/api/runs/${runId}/frames?from=${t0 + 1}&to=${t0 + 1.2}`, 'GET')
+		).json()) as { frames: Frame[] };
 		expect(byTime.frames.map((f) => f.seq)).toEqual([20, 21, 22, 23, 24]);
-		const mp = await viewer.request(`/api/runs/${runId}/frames?to_seq=4`, { headers: { accept: 'application/x-msgpack' } });
+		const mp = await viewer.request(`/api/runs/${runId}/frames?to_seq=4`, {
+			headers: { accept: 'application/x-msgpack' }
+		});
 		expect(mp.headers.get('content-type')).toBe('application/x-msgpack');
 		const { decode } = await import('msgpackr');
-		expect((decode(new Uint8Array(await mp.arrayBuffer())) as { frames: Frame[] }).frames).toHaveLength(5);
-		for (const bad of ['from_seq=-1', 'limit=0', 'from_seq=5&to_seq=2', 'from=abc', 'limit=99999']) {
+		expect(
+			(decode(new Uint8Array(await mp.arrayBuffer())) as { frames: Frame[] }).frames
+		).toHaveLength(5);
+		for (const bad of [
+			'from_seq=-1',
+			'limit=0',
+			'from_seq=5&to_seq=2',
+			'from=abc',
+			'limit=99999'
+		]) {
 			const r = await viewer.json(`/api/runs/${runId}/frames?${bad}`, 'GET');
 			expect(r.status, bad).toBe(422);
 			expect(((await r.json()) as { error: { code: string } }).error.code).toBe('invalid');
 		}
-		expect((await viewer.json(`/api/runs/00000000-0000-4000-8000-000000000000/frames`, 'GET')).status).toBe(404);
+		expect(
+			(await viewer.json(`/api/runs/00000000-0000-4000-8000-000000000000/frames`, 'GET')).status
+		).toBe(404);
 	});
 
 	it('quarantines a bad frame raw with its reason, acknowledges its seq and keeps streaming', async () => {
@@ -131,11 +176,20 @@ describe('ingest into PostgreSQL', () => {
 		const opened = await next((m) => m.type === 'opened');
 		const t = 1_790_000_200;
 		ws.send(JSON.stringify({ type: 'frame', seq: 0, t, estimates: [] }));
-		const bad = { type: 'frame', seq: 1, t: t + 0.05, estimates: [{ x: [1, 2, 3, 4], P: new Array(15).fill(0) }] };
+		const bad = {
+			type: 'frame',
+			seq: 1,
+			t: t + 0.05,
+			estimates: [{ x: [1, 2, 3, 4], P: new Array(15).fill(0) }]
+		};
 		ws.send(JSON.stringify(bad));
 		ws.send(JSON.stringify({ type: 'frame', seq: 2, t: t + 0.1, truth: [] }));
 		const err = await next((m) => m.type === 'error');
-		expect(err).toMatchObject({ code: 'invalid_frame', seq: 1, message: 'estimates[0].P: length 15, expected 16' });
+		expect(err).toMatchObject({
+			code: 'invalid_frame',
+			seq: 1,
+			message: 'estimates[0].P: length 15, expected 16'
+		});
 		await next((m) => m.type === 'ack' && m.seq === 2);
 		ws.send(JSON.stringify({ type: 'close' }));
 		await next((m) => m.type === 'closed');
@@ -163,14 +217,19 @@ describe('ingest into PostgreSQL', () => {
 				});
 				ws.on('error', () => {});
 			});
-		expect(await refused('skf_' + 'x'.repeat(32))).toMatchObject({ status: 401, body: 'unknown feed key\n' });
+		expect(await refused('skf_' + 'x'.repeat(32))).toMatchObject({
+			status: 401,
+			body: 'unknown feed key\n'
+		});
 		const expired = await makeRigWithKey('expired', { expiresAt: new Date(Date.now() - 1000) });
 		expect((await refused(expired.secret)).body).toBe('feed key expired\n');
 
 		const rig = await makeRigWithKey('revoke');
 		const ws = new WebSocket(wsUrl, { headers: { authorization: `Bearer ${rig.secret}` } });
 		await new Promise((r) => ws.once('open', r));
-		const closed = new Promise<{ code: number; reason: string; at: number }>((r) => ws.once('close', (code, reason) => r({ code, reason: String(reason), at: Date.now() })));
+		const closed = new Promise<{ code: number; reason: string; at: number }>((r) =>
+			ws.once('close', (code, reason) => r({ code, reason: String(reason), at: Date.now() }))
+		);
 		const sql = sqlClient();
 		const revokedAt = Date.now();
 		await sql.begin(async (tx) => {
@@ -187,13 +246,20 @@ describe('ingest into PostgreSQL', () => {
 	it('stores a batch exactly once even when it is committed twice (binary COPY falls back to insert-or-skip)', async () => {
 		// run in plain Node: postgres.js parameter serialisation misbehaves inside Vitest's module runner
 		const rig = await makeRigWithKey('twice');
-		const r = spawnSync(process.execPath, ['--import', 'tsx', 'tests/support/commit-twice.ts', rig.rigId, rig.keyId], {
-			cwd: resolve(import.meta.dirname, '../..'),
-			encoding: 'utf8',
-			env: process.env
-		});
+		const r = spawnSync(
+			process.execPath,
+			['--import', 'tsx', 'tests/support/commit-twice.ts', rig.rigId, rig.keyId],
+			{
+				cwd: resolve(import.meta.dirname, '../..'),
+				encoding: 'utf8',
+				env: process.env
+			}
+		);
 		expect(r.status, r.stderr).toBe(0);
-		const { runId, sent } = JSON.parse(r.stdout.trim().split('\n').at(-1)!) as { runId: string; sent: Frame[] };
+		const { runId, sent } = JSON.parse(r.stdout.trim().split('\n').at(-1)!) as {
+			runId: string;
+			sent: Frame[];
+		};
 		const rows = await sqlClient()<{ seq: number; n: number }[]>`
 			select seq::int, count(*)::int as n from frames where run_id = ${runId} group by seq order by seq`;
 		expect(rows).toEqual([
@@ -201,7 +267,9 @@ describe('ingest into PostgreSQL', () => {
 			{ seq: 1, n: 1 },
 			{ seq: 2, n: 1 }
 		]);
-		const [run] = await sqlClient()<{ frame_count: number }[]>`select frame_count::int from runs where id = ${runId}`;
+		const [run] = await sqlClient()<
+			{ frame_count: number }[]
+		>`select frame_count::int from runs where id = ${runId}`;
 		expect(run.frame_count).toBe(3);
 		expect((await stored(runId)).frames).toEqual(sent);
 	});
@@ -213,7 +281,9 @@ describe('ingest into PostgreSQL', () => {
 		const t = Date.UTC(2019, 4, 17, 12) / 1000; // a day no partition was made for ahead of time
 		client.send({ t, truth: [] });
 		await client.close();
-		const [p] = await sqlClient()<{ n: number }[]>`select count(*)::int as n from pg_class where relname = 'frames_20190517'`;
+		const [p] = await sqlClient()<
+			{ n: number }[]
+		>`select count(*)::int as n from pg_class where relname = 'frames_20190517'`;
 		expect(p.n).toBe(1);
 		expect((await stored(runId)).frames).toHaveLength(1);
 	});

@@ -8,7 +8,14 @@ import { Unpackr } from 'msgpackr';
 import { afterAll, beforeAll, describe, expect, inject, it } from 'vitest';
 import WebSocket from 'ws';
 import { SkeinRigClient, type FrameInput } from '$lib/protocol/client';
-import type { BoardMessage, HelloMessage, LiveFrameMessage, LiveServerMessage, LiveStats, StateMessage } from '$lib/viewer/live-protocol';
+import type {
+	BoardMessage,
+	HelloMessage,
+	LiveFrameMessage,
+	LiveServerMessage,
+	LiveStats,
+	StateMessage
+} from '$lib/viewer/live-protocol';
 import { sqlClient } from '$server/db';
 import { startApp, type RunningApp } from '../support/app';
 import { Browserish } from '../support/client';
@@ -16,7 +23,11 @@ import { makePerson } from '../support/factories';
 import { makeRigWithKey } from '../support/rigs';
 
 const unpackr = new Unpackr({ useRecords: false, mapsAsObjects: true, int64AsType: 'number' });
-const run = { name: 'live follow', state_fields: ['x', 'y', 'vx', 'vy'], measurement_fields: ['x', 'y'] };
+const run = {
+	name: 'live follow',
+	state_fields: ['x', 'y', 'vx', 'vy'],
+	measurement_fields: ['x', 'y']
+};
 
 let base: string;
 let viewer: Browserish;
@@ -61,7 +72,8 @@ class Watcher {
 	async until(test: () => boolean, ms = 20_000) {
 		const deadline = Date.now() + ms;
 		while (!test()) {
-			if (Date.now() > deadline) throw new Error(`timed out; got ${this.messages.map((m) => m.type).join(',')}`);
+			if (Date.now() > deadline)
+				throw new Error(`timed out; got ${this.messages.map((m) => m.type).join(',')}`);
 			await new Promise<void>((r) => {
 				this.#waiters.push(r);
 				setTimeout(r, 200);
@@ -72,7 +84,10 @@ class Watcher {
 
 function watch(httpBase: string, path: string, cookie: string | null): Promise<Watcher | Refusal> {
 	return new Promise((resolve, reject) => {
-		const ws = new WebSocket(wsBase(httpBase) + path, { headers: cookie ? { cookie } : {}, perMessageDeflate: false });
+		const ws = new WebSocket(wsBase(httpBase) + path, {
+			headers: cookie ? { cookie } : {},
+			perMessageDeflate: false
+		});
 		const w = new Watcher(ws);
 		ws.once('open', () => resolve(w));
 		ws.once('unexpected-response', (_req, res) => {
@@ -94,7 +109,14 @@ function frame(i: number, t0: number): FrameInput {
 	return {
 		t: t0 + i * 0.05,
 		measurements: [{ z: [10 + i * 0.1, 2] }],
-		estimates: [{ id: 'e1', x: [10 + i * 0.1, 2, 2, 0], P: [1, 0, 0, 0, 0, 1, 0, 0, 0, 0, 1, 0, 0, 0, 0, 1], r: 0.9 }],
+		estimates: [
+			{
+				id: 'e1',
+				x: [10 + i * 0.1, 2, 2, 0],
+				P: [1, 0, 0, 0, 0, 1, 0, 0, 0, 0, 1, 0, 0, 0, 0, 1],
+				r: 0.9
+			}
+		],
 		truth: [{ id: 't1', x: [10 + i * 0.1, 2.5, 2, 0] }]
 	};
 }
@@ -104,7 +126,12 @@ function heavyFrame(i: number, t0: number): FrameInput {
 	return {
 		t: t0 + i * 0.05,
 		measurements: Array.from({ length: 1500 }, (_, k) => ({ z: [k * 0.37 + i, k * 0.11 - i] })),
-		estimates: Array.from({ length: 300 }, (_, k) => ({ id: k, x: [k + i * 0.1, -k, 1.5, 0.5], P: [1, 0.1, 0, 0, 0.1, 1, 0, 0, 0, 0, 1, 0, 0, 0, 0, 1], r: 0.5 }))
+		estimates: Array.from({ length: 300 }, (_, k) => ({
+			id: k,
+			x: [k + i * 0.1, -k, 1.5, 0.5],
+			P: [1, 0.1, 0, 0, 0.1, 1, 0, 0, 0, 0, 1, 0, 0, 0, 0, 1],
+			r: 0.5
+		}))
 	};
 }
 
@@ -117,21 +144,35 @@ async function stats(b: Browserish): Promise<LiveStats> {
 describe('viewer socket: who may watch', () => {
 	it('refuses without a session (401), with an unknown session (401) and for an unknown run (404), before any socket opens', async () => {
 		const rig = await makeRigWithKey('live-auth');
-		const client = new SkeinRigClient({ url: wsBase(base) + '/ingest/v1', key: rig.secret, clientRunId: 'auth', run });
+		const client = new SkeinRigClient({
+			url: wsBase(base) + '/ingest/v1',
+			key: rig.secret,
+			clientRunId: 'auth',
+			run
+		});
 		const { runId } = await client.start();
 
 		const none = await watch(base, `/live/${runId}`, null);
 		expect(none).toMatchObject({ status: 401 });
 		expect((none as Refusal).body.trim().split('\n')).toHaveLength(1);
-		expect(await watch(base, `/live/${runId}`, 'skein_session=not-a-session')).toMatchObject({ status: 401 });
+		expect(await watch(base, `/live/${runId}`, 'skein_session=not-a-session')).toMatchObject({
+			status: 401
+		});
 		expect(await watch(base, '/live', null)).toMatchObject({ status: 401 });
-		expect(await watch(base, `/live/${randomUUID()}`, cookieOf(viewer))).toMatchObject({ status: 404, body: 'no such run\n' });
+		expect(await watch(base, `/live/${randomUUID()}`, cookieOf(viewer))).toMatchObject({
+			status: 404,
+			body: 'no such run\n'
+		});
 		expect(await watch(base, '/live/not-an-id', cookieOf(viewer))).toMatchObject({ status: 404 });
 
 		const ok = await watcher(base, `/live/${runId}`, cookieOf(viewer));
 		await ok.until(() => ok.messages.length > 0);
 		const hello = ok.messages[0] as HelloMessage;
-		expect(hello).toMatchObject({ type: 'hello', protocol: 1, run: { id: runId, rig: rig.rigName, state: 'live', state_fields: run.state_fields, frames: 0 } });
+		expect(hello).toMatchObject({
+			type: 'hello',
+			protocol: 1,
+			run: { id: runId, rig: rig.rigName, state: 'live', state_fields: run.state_fields, frames: 0 }
+		});
 		ok.ws.close();
 		await client.close();
 	});
@@ -151,7 +192,12 @@ describe('viewer socket: who may watch', () => {
 describe('viewer socket: frames', () => {
 	it('sends each committed frame in order, with the stored metrics, then "ended"; the board shows the run', async () => {
 		const rig = await makeRigWithKey('live-order');
-		const client = new SkeinRigClient({ url: wsBase(base) + '/ingest/v1', key: rig.secret, clientRunId: 'order', run: { ...run, name: 'ordered pass' } });
+		const client = new SkeinRigClient({
+			url: wsBase(base) + '/ingest/v1',
+			key: rig.secret,
+			clientRunId: 'order',
+			run: { ...run, name: 'ordered pass' }
+		});
 		const { runId } = await client.start();
 		const w = await watcher(base, `/live/${runId}`, cookieOf(viewer));
 		const board = await watcher(base, '/live', cookieOf(viewer));
@@ -162,7 +208,14 @@ describe('viewer socket: frames', () => {
 		const durable: Promise<number>[] = [];
 		w.ws.on('message', (d) => {
 			const m = unpackr.unpack(d as Buffer) as LiveServerMessage;
-			if (m.type === 'frame') durable.push(sql<{ n: number }[]>`select count(*)::int as n from frames where run_id = ${runId} and seq = ${m.seq}`.then((r) => r[0].n));
+			if (m.type === 'frame')
+				durable.push(
+					sql<
+						{ n: number }[]
+					>`select count(*)::int as n from frames where run_id = ${runId} and seq = ${m.seq}`.then(
+						(r) => r[0].n
+					)
+				);
 		});
 
 		const t0 = Date.now() / 1000;
@@ -171,7 +224,11 @@ describe('viewer socket: frames', () => {
 			if (i % 10 === 9) await new Promise((r) => setTimeout(r, 30));
 		}
 		await w.until(() => w.frames().some((f) => f.seq === 59));
-		await board.until(() => board.messages.some((m) => m.type === 'board' && m.runs.some((r) => r.id === runId && r.seq === 59)));
+		await board.until(() =>
+			board.messages.some(
+				(m) => m.type === 'board' && m.runs.some((r) => r.id === runId && r.seq === 59)
+			)
+		);
 		await client.close();
 		await w.until(() => w.closed !== null);
 
@@ -184,8 +241,16 @@ describe('viewer socket: frames', () => {
 		const last = frames.at(-1)!;
 		expect(last.frame).toMatchObject({ seq: 59, t: t0 + 59 * 0.05, truth: [{ id: 't1' }] });
 		expect(last.t).toBe(t0 + 59 * 0.05);
-		expect(last.metrics).toMatchObject({ n_measurements: 1, n_estimates: 1, n_truth: 1, gospa_missed: 0, gospa_false: 0 });
-		const [row] = await sql<{ gospa: number; expected_cardinality: number }[]>`select gospa, expected_cardinality from frames where run_id = ${runId} and seq = 59`;
+		expect(last.metrics).toMatchObject({
+			n_measurements: 1,
+			n_estimates: 1,
+			n_truth: 1,
+			gospa_missed: 0,
+			gospa_false: 0
+		});
+		const [row] = await sql<
+			{ gospa: number; expected_cardinality: number }[]
+		>`select gospa, expected_cardinality from frames where run_id = ${runId} and seq = 59`;
 		expect(last.metrics?.gospa).toBeCloseTo(row.gospa, 9);
 		expect(last.metrics?.expected_cardinality).toBeCloseTo(row.expected_cardinality, 9);
 
@@ -194,15 +259,29 @@ describe('viewer socket: frames', () => {
 		expect(w.messages.at(-1)).toMatchObject({ type: 'state', state: 'ended' });
 		expect(w.closed).toMatchObject({ code: 1000, reason: 'run ended' });
 
-		const tile = (board.messages.filter((m): m is BoardMessage => m.type === 'board').flatMap((m) => m.runs).filter((r) => r.id === runId && r.seq === 59))[0];
-		expect(tile).toMatchObject({ name: 'ordered pass', rig: rig.rigName, n_measurements: 1, n_estimates: 1, n_truth: 1 });
+		const tile = board.messages
+			.filter((m): m is BoardMessage => m.type === 'board')
+			.flatMap((m) => m.runs)
+			.filter((r) => r.id === runId && r.seq === 59)[0];
+		expect(tile).toMatchObject({
+			name: 'ordered pass',
+			rig: rig.rigName,
+			n_measurements: 1,
+			n_estimates: 1,
+			n_truth: 1
+		});
 		expect(tile.fps).toBeGreaterThan(0);
 		board.ws.close();
 	});
 
 	it('a viewer that never reads gets the newest frame and a skipped count; its outbox never holds more than one frame', async () => {
 		const rig = await makeRigWithKey('live-slow');
-		const client = new SkeinRigClient({ url: wsBase(base) + '/ingest/v1', key: rig.secret, clientRunId: 'slow', run: { ...run, name: 'slow viewer' } });
+		const client = new SkeinRigClient({
+			url: wsBase(base) + '/ingest/v1',
+			key: rig.secret,
+			clientRunId: 'slow',
+			run: { ...run, name: 'slow viewer' }
+		});
 		const { runId } = await client.start();
 		const slow = await watcher(base, `/live/${runId}`, cookieOf(viewer));
 		await slow.until(() => slow.messages.length > 0);
@@ -266,7 +345,10 @@ describe('viewer socket: run state', () => {
 		await first.flush();
 		await w.until(() => w.frames().some((f) => f.seq === 4));
 		first.abort();
-		await w.until(() => w.messages.some((m) => m.type === 'state' && m.state === 'interrupted'), 10_000);
+		await w.until(
+			() => w.messages.some((m) => m.type === 'state' && m.state === 'interrupted'),
+			10_000
+		);
 
 		const again = new SkeinRigClient({ url, key: rig.secret, clientRunId: 'drop', run });
 		const resumed = await again.start();
@@ -275,9 +357,13 @@ describe('viewer socket: run state', () => {
 		await w.until(() => w.frames().some((f) => f.seq === 5));
 		await again.close();
 		await w.until(() => w.closed !== null);
-		const states = w.messages.filter((m): m is StateMessage => m.type === 'state').map((m) => m.state);
+		const states = w.messages
+			.filter((m): m is StateMessage => m.type === 'state')
+			.map((m) => m.state);
 		expect(states).toEqual(['interrupted', 'live', 'ended']);
-		const order = w.messages.map((m) => (m.type === 'frame' ? `f${m.seq}` : m.type === 'state' ? m.state : m.type));
+		const order = w.messages.map((m) =>
+			m.type === 'frame' ? `f${m.seq}` : m.type === 'state' ? m.state : m.type
+		);
 		expect(order.indexOf('f4')).toBeLessThan(order.indexOf('interrupted'));
 		expect(order.indexOf('live')).toBeLessThan(order.indexOf('f5'));
 	});

@@ -8,7 +8,11 @@ interface Caught {
 }
 
 /** Waits for a caught mail to `to` (read through the admin-only dev mail API) and returns its first link. */
-export async function waitForMail(admin: Browserish, to: string, subject: RegExp): Promise<{ mail: Caught; link: URL }> {
+export async function waitForMail(
+	admin: Browserish,
+	to: string,
+	subject: RegExp
+): Promise<{ mail: Caught; link: URL }> {
 	const deadline = Date.now() + 10_000;
 	for (;;) {
 		const res = await admin.json('/api/dev/mail', 'GET');

@@ -22,7 +22,9 @@ let base: string;
 
 interface ApiResult {
 	status: number;
-	body: Record<string, unknown> & { error?: { code: string; message: string; details?: Record<string, string> } };
+	body: Record<string, unknown> & {
+		error?: { code: string; message: string; details?: Record<string, string> };
+	};
 	text: string;
 }
 
@@ -52,7 +54,10 @@ async function newRig(name = rigName()): Promise<{ id: string; name: string }> {
 	return r.body.rig as { id: string; name: string };
 }
 
-async function newKey(rigId: string, body: Record<string, unknown> = {}): Promise<KeyJson & { secret: string }> {
+async function newKey(
+	rigId: string,
+	body: Record<string, unknown> = {}
+): Promise<KeyJson & { secret: string }> {
 	const r = await call('operator', 'POST', `/api/rigs/${rigId}/keys`, body);
 	expect(r.status, r.text).toBe(201);
 	return (r.body as { key: KeyJson & { secret: string } }).key;
@@ -70,13 +75,20 @@ async function rigRow(id: string) {
 
 async function counts() {
 	const [r] = await db()
-		.select({ rigs: sql<number>`(select count(*)::int from rigs)`, keys: sql<number>`(select count(*)::int from feed_keys)` })
+		.select({
+			rigs: sql<number>`(select count(*)::int from rigs)`,
+			keys: sql<number>`(select count(*)::int from feed_keys)`
+		})
 		.from(sql`(select 1) as one`);
 	return r;
 }
 
 function cli(...args: string[]) {
-	const r = spawnSync(process.execPath, ['--import', 'tsx', 'tools/cli.ts', ...args], { cwd: root, encoding: 'utf8', env: process.env });
+	const r = spawnSync(process.execPath, ['--import', 'tsx', 'tools/cli.ts', ...args], {
+		cwd: root,
+		encoding: 'utf8',
+		env: process.env
+	});
 	return { code: r.status, out: r.stdout, err: r.stderr };
 }
 
@@ -91,64 +103,96 @@ beforeAll(async () => {
 });
 
 describe('managing rigs and keys', () => {
-	it.each(['operator', 'admin'] as Role[])('%s creates, renames, describes, archives a rig and manages its keys over the API', async (role) => {
-		const name = rigName(role);
-		const created = await call(role, 'POST', '/api/rigs', { name });
-		expect(created.status, created.text).toBe(201);
-		const rig = created.body.rig as { id: string; name: string; description: string; archivedAt: string | null };
-		expect(rig).toMatchObject({ name, description: '', archivedAt: null });
+	it.each(['operator', 'admin'] as Role[])(
+		'%s creates, renames, describes, archives a rig and manages its keys over the API',
+		async (role) => {
+			const name = rigName(role);
+			const created = await call(role, 'POST', '/api/rigs', { name });
+			expect(created.status, created.text).toBe(201);
+			const rig = created.body.rig as {
+				id: string;
+				name: string;
+				description: string;
+				archivedAt: string | null;
+			};
+			expect(rig).toMatchObject({ name, description: '', archivedAt: null });
 
-		const patched = await call(role, 'PATCH', `/api/rigs/${rig.id}`, { name: `${name}-b`, description: 'Roof lidar, front radar' });
-		expect(patched.status, patched.text).toBe(200);
-		expect(patched.body.rig).toMatchObject({ name: `${name}-b`, description: 'Roof lidar, front radar' });
+			const patched = await call(role, 'PATCH', `/api/rigs/${rig.id}`, {
+				name: `${name}-b`,
+				description: 'Roof lidar, front radar'
+			});
+			expect(patched.status, patched.text).toBe(200);
+			expect(patched.body.rig).toMatchObject({
+				name: `${name}-b`,
+				description: 'Roof lidar, front radar'
+			});
 
-		const key = (await call(role, 'POST', `/api/rigs/${rig.id}/keys`, { label: 'logger', expiresAt: '2099-06-01T12:00:00Z' })).body
-			.key as KeyJson;
-		expect(key).toMatchObject({ label: 'logger', expiresAt: '2099-06-01T12:00:00.000Z' });
-		expect(key.secret).toMatch(/^skf_[A-Za-z0-9_-]{32}$/);
-		expect(key.prefix).toBe(key.secret!.slice(0, 10));
+			const key = (
+				await call(role, 'POST', `/api/rigs/${rig.id}/keys`, {
+					label: 'logger',
+					expiresAt: '2099-06-01T12:00:00Z'
+				})
+			).body.key as KeyJson;
+			expect(key).toMatchObject({ label: 'logger', expiresAt: '2099-06-01T12:00:00.000Z' });
+			expect(key.secret).toMatch(/^skf_[A-Za-z0-9_-]{32}$/);
+			expect(key.prefix).toBe(key.secret!.slice(0, 10));
 
-		const labelled = await call(role, 'PATCH', `/api/keys/${key.id}`, { label: 'trunk logger' });
-		expect(labelled.status).toBe(200);
-		expect((labelled.body.key as KeyJson).label).toBe('trunk logger');
+			const labelled = await call(role, 'PATCH', `/api/keys/${key.id}`, { label: 'trunk logger' });
+			expect(labelled.status).toBe(200);
+			expect((labelled.body.key as KeyJson).label).toBe('trunk logger');
 
-		const rotated = await call(role, 'POST', `/api/keys/${key.id}/rotate`, { grace_minutes: 30 });
-		expect(rotated.status, rotated.text).toBe(201);
-		const fresh = rotated.body.key as KeyJson;
-		expect(fresh.label).toBe('trunk logger');
-		expect((rotated.body.previous as KeyJson).rotatedTo).toBe(fresh.id);
+			const rotated = await call(role, 'POST', `/api/keys/${key.id}/rotate`, { grace_minutes: 30 });
+			expect(rotated.status, rotated.text).toBe(201);
+			const fresh = rotated.body.key as KeyJson;
+			expect(fresh.label).toBe('trunk logger');
+			expect((rotated.body.previous as KeyJson).rotatedTo).toBe(fresh.id);
 
-		const revoked = await call(role, 'POST', `/api/keys/${fresh.id}/revoke`);
-		expect(revoked.status, revoked.text).toBe(200);
-		expect((revoked.body.key as KeyJson).status).toBe('revoked');
-		expect((await call(role, 'POST', `/api/keys/${fresh.id}/revoke`)).status).toBe(409);
+			const revoked = await call(role, 'POST', `/api/keys/${fresh.id}/revoke`);
+			expect(revoked.status, revoked.text).toBe(200);
+			expect((revoked.body.key as KeyJson).status).toBe('revoked');
+			expect((await call(role, 'POST', `/api/keys/${fresh.id}/revoke`)).status).toBe(409);
 
-		const archived = await call(role, 'PATCH', `/api/rigs/${rig.id}`, { archived: true });
-		expect(archived.status).toBe(200);
-		expect((archived.body.rig as { archivedAt: string | null }).archivedAt).not.toBeNull();
-		expect((await call(role, 'POST', `/api/rigs/${rig.id}/keys`, {})).status).toBe(409);
-		const back = await call(role, 'PATCH', `/api/rigs/${rig.id}`, { archived: false });
-		expect((back.body.rig as { archivedAt: string | null }).archivedAt).toBeNull();
+			const archived = await call(role, 'PATCH', `/api/rigs/${rig.id}`, { archived: true });
+			expect(archived.status).toBe(200);
+			expect((archived.body.rig as { archivedAt: string | null }).archivedAt).not.toBeNull();
+			expect((await call(role, 'POST', `/api/rigs/${rig.id}/keys`, {})).status).toBe(409);
+			const back = await call(role, 'PATCH', `/api/rigs/${rig.id}`, { archived: false });
+			expect((back.body.rig as { archivedAt: string | null }).archivedAt).toBeNull();
 
-		const list = await call(role, 'GET', '/api/rigs');
-		const listed = (list.body.rigs as { id: string; totalKeys: number; activeKeys: number }[]).find((r) => r.id === rig.id);
-		expect(listed).toMatchObject({ totalKeys: 2, activeKeys: 1 });
-		const keys = (await call(role, 'GET', `/api/rigs/${rig.id}/keys`)).body.keys as KeyJson[];
-		expect(keys.map((k) => k.status).sort()).toEqual(['expiring', 'revoked']);
-	});
+			const list = await call(role, 'GET', '/api/rigs');
+			const listed = (
+				list.body.rigs as { id: string; totalKeys: number; activeKeys: number }[]
+			).find((r) => r.id === rig.id);
+			expect(listed).toMatchObject({ totalKeys: 2, activeKeys: 1 });
+			const keys = (await call(role, 'GET', `/api/rigs/${rig.id}/keys`)).body.keys as KeyJson[];
+			expect(keys.map((k) => k.status).sort()).toEqual(['expiring', 'revoked']);
+		}
+	);
 
 	it('lists rigs with their key counts and last activity, and keys with last use, address and frames', async () => {
 		const rig = await newRig();
 		const key = await newKey(rig.id, { label: 'roof' });
 		await newKey(rig.id);
-		const listed = () => call('viewer', 'GET', '/api/rigs').then((r) => (r.body.rigs as { id: string; lastActivityAt: string | null }[]).find((x) => x.id === rig.id));
+		const listed = () =>
+			call('viewer', 'GET', '/api/rigs').then((r) =>
+				(r.body.rigs as { id: string; lastActivityAt: string | null }[]).find(
+					(x) => x.id === rig.id
+				)
+			);
 		expect(await listed()).toMatchObject({ activeKeys: 2, totalKeys: 2, lastActivityAt: null });
 		await recordFeedKeyUse(key.id, { ip: '10.20.30.40', frames: 1200 });
 		await recordFeedKeyUse(key.id, { frames: 34 });
 		const lastActivity = (await listed())!.lastActivityAt;
 		expect(Date.now() - new Date(lastActivity!).getTime()).toBeLessThan(60_000);
-		const shown = ((await call('viewer', 'GET', `/api/keys/${key.id}`)).body.key as KeyJson & { lastUsedIp: string; framesReceived: number });
-		expect(shown).toMatchObject({ lastUsedIp: '10.20.30.40', framesReceived: 1234, status: 'active' });
+		const shown = (await call('viewer', 'GET', `/api/keys/${key.id}`)).body.key as KeyJson & {
+			lastUsedIp: string;
+			framesReceived: number;
+		};
+		expect(shown).toMatchObject({
+			lastUsedIp: '10.20.30.40',
+			framesReceived: 1234,
+			status: 'active'
+		});
 		const page = await (await clients.viewer.get(`/rigs/${rig.id}`)).text();
 		expect(page).toContain('10.20.30.40');
 		expect(page).toContain('1,234');
@@ -163,10 +207,20 @@ describe('managing rigs and keys', () => {
 		expect(location).toMatch(/^\/rigs\/[0-9a-f-]{36}$/);
 		const rigId = location.split('/').at(-1)!;
 
-		expect((await c.postForm(`${location}?/details`, { name: `${name}-x`, description: 'moved to lab 3' })).status).toBe(200);
+		expect(
+			(
+				await c.postForm(`${location}?/details`, {
+					name: `${name}-x`,
+					description: 'moved to lab 3'
+				})
+			).status
+		).toBe(200);
 		expect(await rigRow(rigId)).toMatchObject({ name: `${name}-x`, description: 'moved to lab 3' });
 
-		const keyPage = await c.postForm(`${location}?/createKey`, { label: 'lab PC', expiresAt: '2099-01-01T10:00' });
+		const keyPage = await c.postForm(`${location}?/createKey`, {
+			label: 'lab PC',
+			expiresAt: '2099-01-01T10:00'
+		});
 		expect(keyPage.status).toBe(200);
 		const html = await keyPage.text();
 		const secret = /data-testid="feed-key-secret"[^>]*>(skf_[A-Za-z0-9_-]{32})</.exec(html)?.[1];
@@ -181,9 +235,14 @@ describe('managing rigs and keys', () => {
 		expect(later).toContain(secret!.slice(0, 10));
 		expect(later).toContain('action="?/createKey"');
 
-		expect((await c.postForm(`${location}?/labelKey`, { id: keyId, label: 'lab PC 2' })).status).toBe(200);
+		expect(
+			(await c.postForm(`${location}?/labelKey`, { id: keyId, label: 'lab PC 2' })).status
+		).toBe(200);
 		expect((await keyRow(keyId)).label).toBe('lab PC 2');
-		const rotatedPage = await c.postForm(`${location}?/rotateKey`, { id: keyId, grace_minutes: '60' });
+		const rotatedPage = await c.postForm(`${location}?/rotateKey`, {
+			id: keyId,
+			grace_minutes: '60'
+		});
 		expect(rotatedPage.status).toBe(200);
 		expect(await rotatedPage.text()).toMatch(/data-testid="feed-key-secret"[^>]*>skf_/);
 		expect((await keyRow(keyId)).rotatedTo).not.toBeNull();
@@ -223,7 +282,11 @@ describe('managing rigs and keys', () => {
 			}
 			expect(await counts()).toEqual(before);
 			expect(await rigRow(rig.id)).toMatchObject({ name: rig.name, archivedAt: null });
-			expect(await keyRow(key.id)).toMatchObject({ label: 'kept', revokedAt: null, rotatedTo: null });
+			expect(await keyRow(key.id)).toMatchObject({
+				label: 'kept',
+				revokedAt: null,
+				rotatedTo: null
+			});
 		});
 
 		it('gets 403 on every form action and nothing changes', async () => {
@@ -238,7 +301,8 @@ describe('managing rigs and keys', () => {
 				[`/rigs/${rig.id}?/rotateKey`, { id: key.id, grace_minutes: '0' }]
 			];
 			const before = await counts();
-			for (const [path, fields] of posts) expect((await c.postForm(path, fields)).status, path).toBe(403);
+			for (const [path, fields] of posts)
+				expect((await c.postForm(path, fields)).status, path).toBe(403);
 			expect(await counts()).toEqual(before);
 			expect(await rigRow(rig.id)).toMatchObject({ name: rig.name, archivedAt: null });
 			expect(await keyRow(key.id)).toMatchObject({ label: 'kept', revokedAt: null });
@@ -271,7 +335,12 @@ describe('feed key secrets', () => {
 		expect(row.keyHash).not.toContain(key.secret);
 		expect(row.keyHash).toBe(hashSecret(key.secret));
 		expect(row.prefix).toBe(key.prefix);
-		for (const path of ['/api/rigs', `/api/rigs/${rig.id}`, `/api/rigs/${rig.id}/keys`, `/api/keys/${key.id}`]) {
+		for (const path of [
+			'/api/rigs',
+			`/api/rigs/${rig.id}`,
+			`/api/rigs/${rig.id}/keys`,
+			`/api/keys/${key.id}`
+		]) {
 			const r = await call('admin', 'GET', path);
 			expect(r.status, path).toBe(200);
 			expect(r.text, path).not.toContain(key.secret);
@@ -292,19 +361,32 @@ describe('resolveFeedKey', () => {
 	});
 
 	it('refuses unknown, revoked, expired and archived-rig keys with a one-line reason', async () => {
-		expect(await resolveFeedKey(`skf_${'x'.repeat(32)}`)).toEqual({ ok: false, reason: 'unknown feed key' });
-		expect(await resolveFeedKey('not even a key')).toEqual({ ok: false, reason: 'unknown feed key' });
+		expect(await resolveFeedKey(`skf_${'x'.repeat(32)}`)).toEqual({
+			ok: false,
+			reason: 'unknown feed key'
+		});
+		expect(await resolveFeedKey('not even a key')).toEqual({
+			ok: false,
+			reason: 'unknown feed key'
+		});
 
 		const rig = await newRig();
 		const revoked = await newKey(rig.id);
 		await call('operator', 'POST', `/api/keys/${revoked.id}/revoke`);
 		expect(await resolveFeedKey(revoked.secret)).toEqual({ ok: false, reason: 'feed key revoked' });
 
-		const expired = await newKey(rig.id, { expiresAt: new Date(Date.now() + 3600_000).toISOString() });
+		const expired = await newKey(rig.id, {
+			expiresAt: new Date(Date.now() + 3600_000).toISOString()
+		});
 		expect((await resolveFeedKey(expired.secret)).ok).toBe(true);
-		await db().update(schema.feedKeys).set({ expiresAt: new Date(Date.now() - 1000) }).where(eq(schema.feedKeys.id, expired.id));
+		await db()
+			.update(schema.feedKeys)
+			.set({ expiresAt: new Date(Date.now() - 1000) })
+			.where(eq(schema.feedKeys.id, expired.id));
 		expect(await resolveFeedKey(expired.secret)).toEqual({ ok: false, reason: 'feed key expired' });
-		expect(((await call('operator', 'GET', `/api/keys/${expired.id}`)).body.key as KeyJson).status).toBe('expired');
+		expect(
+			((await call('operator', 'GET', `/api/keys/${expired.id}`)).body.key as KeyJson).status
+		).toBe('expired');
 
 		const working = await newKey(rig.id);
 		await call('operator', 'PATCH', `/api/rigs/${rig.id}`, { archived: true });
@@ -323,18 +405,29 @@ describe('resolveFeedKey', () => {
 		expect(row.rotatedTo).toBe(fresh.id);
 		expect(Math.abs(row.expiresAt!.getTime() - (t0 + 120 * 60_000))).toBeLessThan(10_000);
 		expect(await resolveFeedKey(old.secret)).toEqual({ ok: true, rigId: rig.id, keyId: old.id });
-		expect(await resolveFeedKey(fresh.secret)).toEqual({ ok: true, rigId: rig.id, keyId: fresh.id });
+		expect(await resolveFeedKey(fresh.secret)).toEqual({
+			ok: true,
+			rigId: rig.id,
+			keyId: fresh.id
+		});
 
-		await db().update(schema.feedKeys).set({ expiresAt: new Date(Date.now() - 1000) }).where(eq(schema.feedKeys.id, old.id));
+		await db()
+			.update(schema.feedKeys)
+			.set({ expiresAt: new Date(Date.now() - 1000) })
+			.where(eq(schema.feedKeys.id, old.id));
 		expect(await resolveFeedKey(old.secret)).toEqual({ ok: false, reason: 'feed key expired' });
 		expect((await resolveFeedKey(fresh.secret)).ok).toBe(true);
-		expect((await call('operator', 'POST', `/api/keys/${old.id}/rotate`, { grace_minutes: 5 })).status).toBe(409);
+		expect(
+			(await call('operator', 'POST', `/api/keys/${old.id}/rotate`, { grace_minutes: 5 })).status
+		).toBe(409);
 	});
 
 	it('with no grace, stops the old key at once', async () => {
 		const rig = await newRig();
 		const old = await newKey(rig.id);
-		expect((await call('operator', 'POST', `/api/keys/${old.id}/rotate`, { grace_minutes: 0 })).status).toBe(201);
+		expect(
+			(await call('operator', 'POST', `/api/keys/${old.id}/rotate`, { grace_minutes: 0 })).status
+		).toBe(201);
 		expect(await resolveFeedKey(old.secret)).toEqual({ ok: false, reason: 'feed key expired' });
 	});
 });
@@ -354,7 +447,8 @@ describe('revocation over NOTIFY', () => {
 
 	async function hears(keyId: string, withinMs = 1000) {
 		const deadline = Date.now() + withinMs;
-		while (!heard.includes(keyId) && Date.now() < deadline) await new Promise((r) => setTimeout(r, 20));
+		while (!heard.includes(keyId) && Date.now() < deadline)
+			await new Promise((r) => setTimeout(r, 20));
 		return heard.includes(keyId);
 	}
 
@@ -376,7 +470,9 @@ describe('revocation over NOTIFY', () => {
 		await call('operator', 'POST', `/api/keys/${gone.id}/revoke`);
 		await hears(gone.id);
 		heard.length = 0;
-		expect((await call('operator', 'PATCH', `/api/rigs/${rig.id}`, { archived: true })).status).toBe(200);
+		expect(
+			(await call('operator', 'PATCH', `/api/rigs/${rig.id}`, { archived: true })).status
+		).toBe(200);
 		expect(await hears(a.id)).toBe(true);
 		expect(await hears(b.id)).toBe(true);
 		expect(heard).not.toContain(gone.id);
@@ -393,10 +489,15 @@ describe('revocation over NOTIFY', () => {
 describe('audit trail', () => {
 	it('records every rig and key action', async () => {
 		const rig = await newRig(rigName('audited'));
-		await call('operator', 'PATCH', `/api/rigs/${rig.id}`, { name: `${rig.name}-2`, description: 'new words' });
+		await call('operator', 'PATCH', `/api/rigs/${rig.id}`, {
+			name: `${rig.name}-2`,
+			description: 'new words'
+		});
 		const key = await newKey(rig.id);
 		await call('operator', 'PATCH', `/api/keys/${key.id}`, { label: 'audited label' });
-		const fresh = (await call('operator', 'POST', `/api/keys/${key.id}/rotate`, { grace_minutes: 15 })).body.key as KeyJson;
+		const fresh = (
+			await call('operator', 'POST', `/api/keys/${key.id}/rotate`, { grace_minutes: 15 })
+		).body.key as KeyJson;
 		await call('operator', 'POST', `/api/keys/${fresh.id}/revoke`);
 		await call('operator', 'PATCH', `/api/rigs/${rig.id}`, { archived: true });
 		await call('operator', 'PATCH', `/api/rigs/${rig.id}`, { archived: false });
@@ -405,7 +506,9 @@ describe('audit trail', () => {
 		const rows = await db()
 			.select()
 			.from(a)
-			.where(sql`${a.details}->>'id' = ${rig.id} or ${a.details}->>'keyId' in (${key.id}, ${fresh.id})`);
+			.where(
+				sql`${a.details}->>'id' = ${rig.id} or ${a.details}->>'keyId' in (${key.id}, ${fresh.id})`
+			);
 		const actions = rows.map((r) => r.action);
 		expect(actions).toEqual(
 			expect.arrayContaining([
@@ -451,24 +554,39 @@ describe('bad input', () => {
 		['POST', 'KEY/rotate', {}, 422, 'grace_minutes', '0 to 10080'],
 		['PATCH', 'KEY', { label: 42 }, 422, 'label', 'text']
 	])('%s %s %j → %i with a field error', async (method, target, body, status, field, message) => {
-		const path = target.startsWith('RIG') ? target.replace('RIG', `/api/rigs/${rig.id}`) : target.startsWith('KEY') ? target.replace('KEY', `/api/keys/${key.id}`) : target;
+		const path = target.startsWith('RIG')
+			? target.replace('RIG', `/api/rigs/${rig.id}`)
+			: target.startsWith('KEY')
+				? target.replace('KEY', `/api/keys/${key.id}`)
+				: target;
 		const before = await counts();
 		const r = await call('operator', method, path, body);
 		expect(r.status, r.text).toBe(status);
 		expect(r.body.error?.code).toBe('invalid');
-		if (field !== '_' || message) expect(r.body.error?.details?.[field] ?? r.body.error?.message).toContain(message);
+		if (field !== '_' || message)
+			expect(r.body.error?.details?.[field] ?? r.body.error?.message).toContain(message);
 		expect(await counts()).toEqual(before);
 		expect(await rigRow(rig.id)).toMatchObject({ name: rig.name, archivedAt: null });
-		expect(await keyRow(key.id)).toMatchObject({ label: 'steady', revokedAt: null, rotatedTo: null, expiresAt: null });
+		expect(await keyRow(key.id)).toMatchObject({
+			label: 'steady',
+			revokedAt: null,
+			rotatedTo: null,
+			expiresAt: null
+		});
 	});
 
 	it('refuses a duplicate rig name, ignoring case, with 409 (API and form)', async () => {
 		const before = await counts();
 		const r = await call('operator', 'POST', '/api/rigs', { name: rig.name.toUpperCase() });
 		expect(r.status).toBe(409);
-		expect(r.body.error).toMatchObject({ code: 'conflict', details: { name: expect.stringContaining('already exists') } });
+		expect(r.body.error).toMatchObject({
+			code: 'conflict',
+			details: { name: expect.stringContaining('already exists') }
+		});
 		const other = await newRig();
-		expect((await call('operator', 'PATCH', `/api/rigs/${other.id}`, { name: ` ${rig.name} ` })).status).toBe(409);
+		expect(
+			(await call('operator', 'PATCH', `/api/rigs/${other.id}`, { name: ` ${rig.name} ` })).status
+		).toBe(409);
 		const form = await clients.operator.postForm('/rigs?/create', { name: rig.name });
 		expect(form.status).toBe(409);
 		expect(await form.text()).toContain('already exists');
@@ -517,10 +635,16 @@ describe('bad input', () => {
 		const empty = await c.postForm('/rigs?/create', { name: '' });
 		expect(empty.status).toBe(400);
 		expect(await empty.text()).toContain('Enter a rig name');
-		const past = await c.postForm(`/rigs/${rig.id}?/createKey`, { label: 'late', expiresAt: '2001-01-01T00:00' });
+		const past = await c.postForm(`/rigs/${rig.id}?/createKey`, {
+			label: 'late',
+			expiresAt: '2001-01-01T00:00'
+		});
 		expect(past.status).toBe(400);
 		expect(await past.text()).toContain('Expiry must be in the future');
-		const grace = await c.postForm(`/rigs/${rig.id}?/rotateKey`, { id: key.id, grace_minutes: '99999' });
+		const grace = await c.postForm(`/rigs/${rig.id}?/rotateKey`, {
+			id: key.id,
+			grace_minutes: '99999'
+		});
 		expect(grace.status).toBe(400);
 		expect(await grace.text()).toContain('Grace period must be');
 		const otherRig = await newRig();
@@ -534,7 +658,16 @@ describe('bad input', () => {
 describe('npm run cli -- keys', () => {
 	it('creates the rig and a key, prints the key alone on the last line, lists and revokes it', async () => {
 		const name = rigName('cli');
-		const made = cli('keys', 'create', '--rig', name, '--label', 'bench PC', '--expires', '2099-01-01T00:00:00Z');
+		const made = cli(
+			'keys',
+			'create',
+			'--rig',
+			name,
+			'--label',
+			'bench PC',
+			'--expires',
+			'2099-01-01T00:00:00Z'
+		);
 		expect(made.code, made.err).toBe(0);
 		const secret = made.out.trim().split('\n').at(-1)!;
 		expect(secret).toMatch(/^skf_[A-Za-z0-9_-]{32}$/);
@@ -549,7 +682,9 @@ describe('npm run cli -- keys', () => {
 		expect(list.code).toBe(0);
 		const lines = list.out.trim().split('\n');
 		expect(lines).toHaveLength(2);
-		expect(lines).toContain([name, keyId, secret.slice(0, 10), 'bench PC', 'active', 'never'].join('\t'));
+		expect(lines).toContain(
+			[name, keyId, secret.slice(0, 10), 'bench PC', 'active', 'never'].join('\t')
+		);
 
 		const revoked = cli('keys', 'revoke', '--prefix', secret.slice(0, 10));
 		expect(revoked.code, revoked.err).toBe(0);

@@ -16,7 +16,10 @@ interface Series {
 	t: number[];
 	frames: number[];
 	width: number;
-	columns: Record<string, { min: (number | null)[]; max: (number | null)[]; mean: (number | null)[] }>;
+	columns: Record<
+		string,
+		{ min: (number | null)[]; max: (number | null)[]; mean: (number | null)[] }
+	>;
 	zones: Record<string, { mean: (number | null)[] }>;
 }
 
@@ -46,7 +49,10 @@ beforeAll(async () => {
 
 const get = async (q: string) => {
 	const res = await reader.json(`/api/runs/${runId}/series?${q}`, 'GET');
-	return { status: res.status, body: (await res.json()) as { series: Series; error?: { details: Record<string, string> } } };
+	return {
+		status: res.status,
+		body: (await res.json()) as { series: Series; error?: { details: Record<string, string> } }
+	};
 };
 
 describe('series endpoint', () => {
@@ -55,7 +61,13 @@ describe('series endpoint', () => {
 		expect(status).toBe(200);
 		const s = body.series;
 		const times = Array.from({ length: N }, (_, k) => k * 0.05);
-		const ref = downsample(times, times.map((_, k) => gospaAt(k)), 0, (N - 1) * 0.05, 50);
+		const ref = downsample(
+			times,
+			times.map((_, k) => gospaAt(k)),
+			0,
+			(N - 1) * 0.05,
+			50
+		);
 		expect(s.t.length).toBe(50);
 		expect(s.frames.reduce((a, b) => a + b, 0)).toBe(N);
 		expect(s.frames).toEqual(ref.frames);
@@ -75,7 +87,10 @@ describe('series endpoint', () => {
 	});
 
 	it('refuses bad parameters and unknown runs', async () => {
-		for (const q of ['buckets=0', 'buckets=99999', 'from=5&to=2', 'from=abc']) expect((await get(q)).status, q).toBe(422);
-		expect((await reader.json('/api/runs/00000000-0000-4000-8000-000000000000/series', 'GET')).status).toBe(404);
+		for (const q of ['buckets=0', 'buckets=99999', 'from=5&to=2', 'from=abc'])
+			expect((await get(q)).status, q).toBe(422);
+		expect(
+			(await reader.json('/api/runs/00000000-0000-4000-8000-000000000000/series', 'GET')).status
+		).toBe(404);
 	});
 });

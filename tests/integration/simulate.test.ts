@@ -31,7 +31,9 @@ describe('simulated rig', () => {
 		// let part of the run through, then kill the server under the rig and bring it back
 		const sql = sqlClient();
 		for (let i = 0; i < 200; i++) {
-			const [r] = await sql<{ n: number }[]>`select coalesce(max(frame_count), 0)::int as n from runs where client_run_id = 'restart-test'`;
+			const [r] = await sql<
+				{ n: number }[]
+			>`select coalesce(max(frame_count), 0)::int as n from runs where client_run_id = 'restart-test'`;
 			if (r.n > 100) break;
 			await new Promise((res) => setTimeout(res, 50));
 		}
@@ -45,13 +47,18 @@ describe('simulated rig', () => {
 				select seq::int, count(*)::int as n from frames where run_id = ${result.runId} group by seq order by seq`;
 			expect(rows).toHaveLength(800);
 			expect(rows.every((r, i) => r.seq === i && r.n === 1)).toBe(true);
-			const [run] = await sql<{ status: string }[]>`select status::text from runs where id = ${result.runId}`;
+			const [run] = await sql<
+				{ status: string }[]
+			>`select status::text from runs where id = ${result.runId}`;
 			expect(run.status).toBe('ended');
 			// spot-check stored frames against a fresh generation with the same seed
 			const expected = [...simulate('glassmere-reach', { seed: 7, durationS: 40, startEpoch })];
-			const res = await fetch(`${app.url}/api/runs/${result.runId}/frames?from_seq=395&to_seq=405`, {
-				headers: { authorization: `Bearer ${await token()}` }
-			});
+			const res = await fetch(
+				`${app.url}/api/runs/${result.runId}/frames?from_seq=395&to_seq=405`,
+				{
+					headers: { authorization: `Bearer ${await token()}` }
+				}
+			);
 			const { frames } = (await res.json()) as { frames: unknown[] };
 			expect(frames).toEqual(expected.slice(395, 406).map((s) => s.frame));
 		} finally {
@@ -64,12 +71,25 @@ describe('simulated rig', () => {
 		for (const [args, message] of [
 			[['simulate', '--rig', 'x'], '--scenario is required'],
 			[['simulate', '--rig', 'x', '--scenario', 'moonbase'], 'unknown scenario'],
-			[['simulate', '--rig', 'x', '--scenario', 'brassnettle-yard', '--speed=-1'], '--speed must be'],
-			[['simulate', '--rig', 'x', '--scenario', 'brassnettle-yard', '--seed', '1.5'], '--seed must be'],
-			[['simulate', '--rig', 'x', '--scenario', 'brassnettle-yard', '--url', 'http://x'], '--url must start'],
+			[
+				['simulate', '--rig', 'x', '--scenario', 'brassnettle-yard', '--speed=-1'],
+				'--speed must be'
+			],
+			[
+				['simulate', '--rig', 'x', '--scenario', 'brassnettle-yard', '--seed', '1.5'],
+				'--seed must be'
+			],
+			[
+				['simulate', '--rig', 'x', '--scenario', 'brassnettle-yard', '--url', 'http://x'],
+				'--url must start'
+			],
 			[['simulate', '--scenario', 'brassnettle-yard'], '--rig is required']
 		] as [string[], string][]) {
-			const r = spawnSync(process.execPath, ['--import', 'tsx', 'tools/cli.ts', ...args], { cwd: root, encoding: 'utf8', env: process.env });
+			const r = spawnSync(process.execPath, ['--import', 'tsx', 'tools/cli.ts', ...args], {
+				cwd: root,
+				encoding: 'utf8',
+				env: process.env
+			});
 			expect(r.status, args.join(' ')).toBe(2);
 			expect(r.stderr).toContain(message);
 		}

@@ -28,14 +28,29 @@ export interface RunningApp {
 	stop(signal?: NodeJS.Signals): Promise<void>;
 }
 
-export async function startApp(env: Record<string, string> = {}, nodeArgs: string[] = []): Promise<RunningApp> {
+export async function startApp(
+	env: Record<string, string> = {},
+	nodeArgs: string[] = []
+): Promise<RunningApp> {
 	const port = env.PORT ? Number(env.PORT) : await freePort();
 	let out = '';
-	const child = spawn(process.execPath, [...nodeArgs, '--import', 'tsx', resolve(root, 'server-ws/server.ts')], {
-		cwd: root,
-		env: { ...process.env, PORT: String(port), HOST: '127.0.0.1', NODE_ENV: 'production', MAIL_CATCHER_PORT: '0', LOG_LEVEL: 'warn', ...env },
-		stdio: ['ignore', 'pipe', 'pipe']
-	});
+	const child = spawn(
+		process.execPath,
+		[...nodeArgs, '--import', 'tsx', resolve(root, 'server-ws/server.ts')],
+		{
+			cwd: root,
+			env: {
+				...process.env,
+				PORT: String(port),
+				HOST: '127.0.0.1',
+				NODE_ENV: 'production',
+				MAIL_CATCHER_PORT: '0',
+				LOG_LEVEL: 'warn',
+				...env
+			},
+			stdio: ['ignore', 'pipe', 'pipe']
+		}
+	);
 	child.stdout!.on('data', (d) => (out += d));
 	child.stderr!.on('data', (d) => (out += d));
 	const url = `http://127.0.0.1:${port}`;

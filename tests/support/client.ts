@@ -35,7 +35,11 @@ export class Browserish {
 	postForm(path: string, fields: Record<string, string>) {
 		return this.request(path, {
 			method: 'POST',
-			headers: { origin: this.base, 'content-type': 'application/x-www-form-urlencoded', accept: 'text/html' },
+			headers: {
+				origin: this.base,
+				'content-type': 'application/x-www-form-urlencoded',
+				accept: 'text/html'
+			},
 			body: new URLSearchParams(fields).toString()
 		});
 	}
@@ -43,7 +47,12 @@ export class Browserish {
 	json(path: string, method: string, body?: unknown, headers: Record<string, string> = {}) {
 		return this.request(path, {
 			method,
-			headers: { origin: this.base, 'content-type': 'application/json', accept: 'application/json', ...headers },
+			headers: {
+				origin: this.base,
+				'content-type': 'application/json',
+				accept: 'application/json',
+				...headers
+			},
 			body: body === undefined ? undefined : typeof body === 'string' ? body : JSON.stringify(body)
 		});
 	}

@@ -18,7 +18,12 @@ const sent = [0, 1, 2].map((seq) => ({
 	estimates: [{ id: 1, x: [5 + seq, 0], P: [1, 0, 0, 1], r: 0.9 }],
 	truth: seq === 1 ? [] : [{ id: 1, x: [5 + seq, 0.2] }]
 }));
-const batch = sent.map((frame) => ({ seq: frame.seq, t: frame.t, frame, raw: toMsgpack({ type: 'frame', ...frame }) }));
+const batch = sent.map((frame) => ({
+	seq: frame.seq,
+	t: frame.t,
+	frame,
+	raw: toMsgpack({ type: 'frame', ...frame })
+}));
 await store.commitFrames(opened.runId, batch, []);
 await store.commitFrames(opened.runId, batch, []);
 await closeDb();

@@ -11,6 +11,11 @@ export function uniqueEmail(tag: string): string {
 
 export async function makePerson(role: Role, tag: string = role) {
 	const email = uniqueEmail(tag);
-	const user = await createUser(systemActor, { email, role, name: `${tag} person`, password: testPassword });
+	const user = await createUser(systemActor, {
+		email,
+		role,
+		name: `${tag} person`,
+		password: testPassword
+	});
 	return { ...user, password: testPassword };
 }

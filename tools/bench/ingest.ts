@@ -22,7 +22,6 @@ const root = resolve(import.meta.dirname, '../..');
 const packr = new Packr({ useRecords: false });
 const stateFields = ['x', 'y', 'vx', 'vy'];
 
-
 function benchFrame(seq: number, t: number, r: () => number): Frame & { type: 'frame' } {
 	const est = Array.from({ length: 20 }, (_, i) => {
 		const a = 0.5 + r();
@@ -42,7 +41,10 @@ function benchFrame(seq: number, t: number, r: () => number): Frame & { type: 'f
 		ego: { x: r() * 10, y: r() * 10, heading: r() },
 		measurements: Array.from({ length: 40 }, () => ({ z: [r() * 80 - 40, r() * 80 - 40] })),
 		estimates: est,
-		truth: est.map((e, i) => ({ id: `t${i}`, x: [e.x[0] + r() - 0.5, e.x[1] + r() - 0.5, e.x[2], e.x[3]] }))
+		truth: est.map((e, i) => ({
+			id: `t${i}`,
+			x: [e.x[0] + r() - 0.5, e.x[1] + r() - 0.5, e.x[2], e.x[3]]
+		}))
 	};
 }
 
@@ -52,8 +54,16 @@ interface RigResult {
 }
 
 /** A bench rig on a raw socket: pre-encoded frames, window-limited, latency from send to covering ack. */
-async function benchRig(url: string, key: string, id: string, opts: { untilMs: number; rateHz?: number; templates: Buffer[]; t0: number }): Promise<RigResult> {
-	const ws = new WebSocket(url, { headers: { authorization: `Bearer ${key}` }, perMessageDeflate: false });
+async function benchRig(
+	url: string,
+	key: string,
+	id: string,
+	opts: { untilMs: number; rateHz?: number; templates: Buffer[]; t0: number }
+): Promise<RigResult> {
+	const ws = new WebSocket(url, {
+		headers: { authorization: `Bearer ${key}` },
+		perMessageDeflate: false
+	});
 	await new Promise((res, rej) => (ws.once('open', res), ws.once('error', rej)));
 	const inbox: ((m: Record<string, unknown>) => void)[] = [];
 	let window = 64;
@@ -74,7 +84,13 @@ async function benchRig(url: string, key: string, id: string, opts: { untilMs: n
 	});
 	const opened = await new Promise<Record<string, unknown>>((res) => {
 		inbox.push(res);
-		ws.send(packr.pack({ type: 'open', client_run_id: id, run: { name: id, state_fields: stateFields, measurement_fields: ['x', 'y'] } }));
+		ws.send(
+			packr.pack({
+				type: 'open',
+				client_run_id: id,
+				run: { name: id, state_fields: stateFields, measurement_fields: ['x', 'y'] }
+			})
+		);
 	});
 	window = opened.window as number;
 	const started = performance.now();
@@ -109,14 +125,21 @@ async function benchRig(url: string, key: string, id: string, opts: { untilMs: n
  * A frame message whose seq (uint32) and t (float64) sit at fixed offsets, so the bench rig can patch them in
  * place. MessagePack allows these wider-than-needed encodings; every decoder reads them.
  */
-const head = Buffer.concat([Buffer.from([0x87]), packr.pack('type'), packr.pack('frame'), packr.pack('seq'), Buffer.from([0xce, 0, 0, 0, 0])]);
+const head = Buffer.concat([
+	Buffer.from([0x87]),
+	packr.pack('type'),
+	packr.pack('frame'),
+	packr.pack('seq'),
+	Buffer.from([0xce, 0, 0, 0, 0])
+]);
 const seqOffset = head.length - 4;
 const tKey = packr.pack('t');
 const tOffset = head.length + tKey.length + 1;
 
 function template(f: ReturnType<typeof benchFrame>): Buffer {
 	const parts: Buffer[] = [head, tKey, Buffer.from([0xcb, 0, 0, 0, 0, 0, 0, 0, 0])];
-	for (const k of ['ego', 'measurements', 'estimates', 'truth'] as const) parts.push(packr.pack(k), packr.pack(f[k]));
+	for (const k of ['ego', 'measurements', 'estimates', 'truth'] as const)
+		parts.push(packr.pack(k), packr.pack(f[k]));
 	return Buffer.concat(parts);
 }
 
@@ -135,7 +158,9 @@ async function main() {
 	await ensureDatabase(dbUrl.toString()); // durable: no relaxed commit settings
 	await applyMigrations(dbUrl.toString(), resolve(root, 'drizzle'));
 	const sql = postgres(dbUrl.toString(), { max: 4, onnotice: () => {} });
-	const [{ fsync, sc }] = await sql<{ fsync: string; sc: string }[]>`select current_setting('fsync') as fsync, current_setting('synchronous_commit') as sc`;
+	const [{ fsync, sc }] = await sql<
+		{ fsync: string; sc: string }[]
+	>`select current_setting('fsync') as fsync, current_setting('synchronous_commit') as sc`;
 	console.log(`database: fsync=${fsync}, synchronous_commit=${sc}; ${seconds} s per configuration`);
 
 	buildIfStale();
@@ -147,12 +172,15 @@ async function main() {
 	const r = rng(1);
 	const templates = Array.from({ length: 64 }, (_, i) => template(benchFrame(i, 0, r)));
 	const check = packr.unpack(templates[0]) as Frame;
-	if (Object.keys(check).length !== 7 || !Array.isArray(check.estimates)) throw new Error('bad template');
+	if (Object.keys(check).length !== 7 || !Array.isArray(check.estimates))
+		throw new Error('bad template');
 	console.log(`frame message: ${templates[0].length} bytes MessagePack`);
 
 	const keys: string[] = [];
 	for (let i = 0; i < 16; i++) {
-		const [rig] = await sql<{ id: string }[]>`insert into rigs (name) values (${'bench-' + i}) returning id`;
+		const [rig] = await sql<
+			{ id: string }[]
+		>`insert into rigs (name) values (${'bench-' + i}) returning id`;
 		const secret = newSecret('skf');
 		await sql`insert into feed_keys (rig_id, prefix, key_hash) values (${rig.id}, ${secretPrefix(secret)}, ${hashSecret(secret)})`;
 		keys.push(secret);
@@ -165,7 +193,9 @@ async function main() {
 		const started = performance.now();
 		const t0 = Date.UTC(2026, 10, 30) / 1000 + runIx * 3600;
 		const out = await Promise.all(
-			Array.from({ length: rigs }, (_, i) => benchRig(wsUrl, keys[i], `bench-${runIx}-${i}`, { untilMs, rateHz, templates, t0 }))
+			Array.from({ length: rigs }, (_, i) =>
+				benchRig(wsUrl, keys[i], `bench-${runIx}-${i}`, { untilMs, rateHz, templates, t0 })
+			)
 		);
 		runIx++;
 		const elapsed = (performance.now() - started) / 1000;
@@ -173,7 +203,9 @@ async function main() {
 		const lat = out.flatMap((o) => o.latencies);
 		const row = { label, fps: frames / elapsed, p50: pct(lat, 50), p99: pct(lat, 99) };
 		results.push(row);
-		console.log(`${label.padEnd(34)} ${row.fps.toFixed(0).padStart(7)} frames/s   ack p50 ${row.p50.toFixed(1).padStart(6)} ms   p99 ${row.p99.toFixed(1).padStart(6)} ms`);
+		console.log(
+			`${label.padEnd(34)} ${row.fps.toFixed(0).padStart(7)} frames/s   ack p50 ${row.p50.toFixed(1).padStart(6)} ms   p99 ${row.p99.toFixed(1).padStart(6)} ms`
+		);
 		return row;
 	}
 
@@ -198,44 +230,77 @@ async function main() {
 		const v = (x: number | null) => (x === null ? '\\N' : String(x));
 		lines.push(
 			[
-				'00000000-0000-4000-8000-00000000b00c', i, f.t, new Date(f.t * 1000).toISOString(), `\\\\x${data}`,
-				v(m.n_measurements), v(m.n_estimates), v(m.n_truth), v(m.expected_cardinality), v(m.gospa), v(m.gospa_localization),
-				v(m.gospa_missed), v(m.gospa_false), v(m.ospa), v(m.nees_mean), z
+				'00000000-0000-4000-8000-00000000b00c',
+				i,
+				f.t,
+				new Date(f.t * 1000).toISOString(),
+				`\\\\x${data}`,
+				v(m.n_measurements),
+				v(m.n_estimates),
+				v(m.n_truth),
+				v(m.expected_cardinality),
+				v(m.gospa),
+				v(m.gospa_localization),
+				v(m.gospa_missed),
+				v(m.gospa_false),
+				v(m.ospa),
+				v(m.nees_mean),
+				z
 			].join('\t') + '\n'
 		);
 	}
 	const metricsUs = ((performance.now() - metricsStart) * 1000) / n;
 	await sql`select skein_ensure_frames_partition(${new Date(t0 * 1000)}::timestamptz)`;
-	const cols = 'run_id, seq, t, ts, data, n_measurements, n_estimates, n_truth, expected_cardinality, gospa, gospa_localization, gospa_missed, gospa_false, ospa, nees_mean, zones';
+	const cols =
+		'run_id, seq, t, ts, data, n_measurements, n_estimates, n_truth, expected_cardinality, gospa, gospa_localization, gospa_missed, gospa_false, ospa, nees_mean, zones';
 
 	async function copyInto(table: string): Promise<number> {
 		const started = performance.now();
 		const stream = await sql.unsafe(`copy ${table} (${cols}) from stdin`).writable();
 		for (let i = 0; i < lines.length; i += 500) {
-			if (!stream.write(lines.slice(i, i + 500).join(''))) await new Promise((res) => stream.once('drain', res));
+			if (!stream.write(lines.slice(i, i + 500).join('')))
+				await new Promise((res) => stream.once('drain', res));
 		}
-		await new Promise<void>((res, rej) => stream.end((err?: Error | null) => (err ? rej(err) : res())));
+		await new Promise<void>((res, rej) =>
+			stream.end((err?: Error | null) => (err ? rej(err) : res()))
+		);
 		return n / ((performance.now() - started) / 1000);
 	}
 
 	const copyRate = await copyInto('frames');
-	console.log(`${'COPY into frames (data STORAGE EXTERNAL)'.padEnd(44)} ${copyRate.toFixed(0).padStart(7)} rows/s`);
+	console.log(
+		`${'COPY into frames (data STORAGE EXTERNAL)'.padEnd(44)} ${copyRate.toFixed(0).padStart(7)} rows/s`
+	);
 	const variants: [string, string][] = [
 		['uncompressed (EXTERNAL)', 'alter table bench_v alter column data set storage external'],
-		['pglz (PostgreSQL default)', "alter table bench_v alter column data set storage extended, alter column data set compression pglz"],
-		['lz4', "alter table bench_v alter column data set storage extended, alter column data set compression lz4"]
+		[
+			'pglz (PostgreSQL default)',
+			'alter table bench_v alter column data set storage extended, alter column data set compression pglz'
+		],
+		[
+			'lz4',
+			'alter table bench_v alter column data set storage extended, alter column data set compression lz4'
+		]
 	];
 	for (const [label, alter] of variants) {
 		await sql`drop table if exists bench_v`;
 		await sql`create table bench_v (like frames including defaults)`;
 		await sql.unsafe(alter);
 		const rate = await copyInto('bench_v');
-		const [{ size }] = await sql<{ size: string }[]>`select pg_size_pretty(pg_total_relation_size('bench_v')) as size`;
-		console.log(`  ${('storage: ' + label).padEnd(42)} ${rate.toFixed(0).padStart(7)} rows/s   ${size} for ${n} frames`);
+		const [{ size }] = await sql<
+			{ size: string }[]
+		>`select pg_size_pretty(pg_total_relation_size('bench_v')) as size`;
+		console.log(
+			`  ${('storage: ' + label).padEnd(42)} ${rate.toFixed(0).padStart(7)} rows/s   ${size} for ${n} frames`
+		);
 	}
 	await sql`drop table if exists bench_v`;
-	console.log(`\nper-frame metrics at ingest (GOSPA, OSPA, cardinality, NEES, zone) for this frame shape: ${metricsUs.toFixed(0)} µs/frame`);
-	console.log(`\nratio, 4 rigs through the socket / raw COPY: ${(four.fps / copyRate).toFixed(2)} (target ≥ 0.6)`);
+	console.log(
+		`\nper-frame metrics at ingest (GOSPA, OSPA, cardinality, NEES, zone) for this frame shape: ${metricsUs.toFixed(0)} µs/frame`
+	);
+	console.log(
+		`\nratio, 4 rigs through the socket / raw COPY: ${(four.fps / copyRate).toFixed(2)} (target ≥ 0.6)`
+	);
 	console.log(`targets: ≥ 5,000 frames/s with 4 rigs; p99 ack latency < 100 ms at 1,000 frames/s`);
 	await sql.end();
 }

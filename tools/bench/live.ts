@@ -20,7 +20,12 @@ import { startApp } from '../../tests/support/app';
 import { buildIfStale } from '../lib/build';
 import { clusterUrl, dropDatabase, ensureDatabase, startCluster, testCluster } from '../lib/pg';
 import { SkeinRigClient } from '../../src/lib/protocol/client';
-import { MEASUREMENT_FIELDS, STATE_FIELDS, getScenario, simulateFrom } from '../../src/lib/tracking';
+import {
+	MEASUREMENT_FIELDS,
+	STATE_FIELDS,
+	getScenario,
+	simulateFrom
+} from '../../src/lib/tracking';
 
 const seconds = Number(process.env.BENCH_SECONDS ?? 20);
 const warmupS = 3;
@@ -39,13 +44,25 @@ const sleep = (ms: number) => new Promise((r) => setTimeout(r, ms));
  * A simulated rig whose device clock is this machine's: frame k carries t = t0 + k·dt and is sent at t0 + k·dt,
  * with t0 taken once the run is open (so connecting does not show up as latency).
  */
-async function benchRig(url: string, key: string, scenario: string, seed: number, durationS: number, signal: AbortSignal) {
+async function benchRig(
+	url: string,
+	key: string,
+	scenario: string,
+	seed: number,
+	durationS: number,
+	signal: AbortSignal
+) {
 	const sc = getScenario(scenario);
 	const client = new SkeinRigClient({
 		url,
 		key,
 		clientRunId: `bench-${seed}`,
-		run: { name: `${sc.title} · bench ${seed}`, state_fields: [...STATE_FIELDS], measurement_fields: [...MEASUREMENT_FIELDS], tags: ['bench'] }
+		run: {
+			name: `${sc.title} · bench ${seed}`,
+			state_fields: [...STATE_FIELDS],
+			measurement_fields: [...MEASUREMENT_FIELDS],
+			tags: ['bench']
+		}
 	});
 	await client.start();
 	const t0 = Date.now();
@@ -67,7 +84,11 @@ function pct(xs: number[], p: number): number {
 }
 
 const row = (label: string, xs: number[]) =>
-	`${label.padEnd(46)} n ${String(xs.length).padStart(6)}   p50 ${pct(xs, 50).toFixed(1).padStart(6)} ms   p95 ${pct(xs, 95).toFixed(1).padStart(6)} ms   p99 ${pct(xs, 99).toFixed(1).padStart(6)} ms   max ${Math.max(...xs).toFixed(1).padStart(6)} ms`;
+	`${label.padEnd(46)} n ${String(xs.length).padStart(6)}   p50 ${pct(xs, 50).toFixed(1).padStart(6)} ms   p95 ${pct(xs, 95).toFixed(1).padStart(6)} ms   p99 ${pct(xs, 99).toFixed(1).padStart(6)} ms   max ${Math.max(
+		...xs
+	)
+		.toFixed(1)
+		.padStart(6)} ms`;
 
 async function main() {
 	startCluster(testCluster);
@@ -83,8 +104,12 @@ async function main() {
 	await closeDb();
 
 	const sql = postgres(dbUrl.toString(), { max: 2, onnotice: () => {} });
-	const [{ fsync, sc }] = await sql<{ fsync: string; sc: string }[]>`select current_setting('fsync') as fsync, current_setting('synchronous_commit') as sc`;
-	console.log(`database: fsync=${fsync}, synchronous_commit=${sc}; ${RIGS} rigs at 20 Hz, ${NODE_VIEWERS} Node viewers × ${RIGS} runs${withBrowser ? ' + 1 chromium Run screen' : ''}; ${seconds} s measured after ${warmupS} s`);
+	const [{ fsync, sc }] = await sql<
+		{ fsync: string; sc: string }[]
+	>`select current_setting('fsync') as fsync, current_setting('synchronous_commit') as sc`;
+	console.log(
+		`database: fsync=${fsync}, synchronous_commit=${sc}; ${RIGS} rigs at 20 Hz, ${NODE_VIEWERS} Node viewers × ${RIGS} runs${withBrowser ? ' + 1 chromium Run screen' : ''}; ${seconds} s measured after ${warmupS} s`
+	);
 
 	buildIfStale();
 	const app = await startApp({ DATABASE_URL: dbUrl.toString(), LOG_LEVEL: 'error' });
@@ -100,15 +125,30 @@ async function main() {
 	const rigIds: string[] = [];
 	const rigs: Promise<unknown>[] = [];
 	for (let i = 0; i < RIGS; i++) {
-		const [rig] = await sql<{ id: string }[]>`insert into rigs (name) values (${`bench-rig-${i + 1}`}) returning id`;
+		const [rig] = await sql<
+			{ id: string }[]
+		>`insert into rigs (name) values (${`bench-rig-${i + 1}`}) returning id`;
 		const secret = newSecret('skf');
 		await sql`insert into feed_keys (rig_id, label, prefix, key_hash) values (${rig.id}, 'bench', ${secretPrefix(secret)}, ${hashSecret(secret)})`;
 		rigIds.push(rig.id);
-		rigs.push(benchRig(`${wsBase}/ingest/v1`, secret, scenarios[i % scenarios.length], 100 + i, seconds + warmupS + 30, stop.signal));
+		rigs.push(
+			benchRig(
+				`${wsBase}/ingest/v1`,
+				secret,
+				scenarios[i % scenarios.length],
+				100 + i,
+				seconds + warmupS + 30,
+				stop.signal
+			)
+		);
 	}
 	let runIds: string[] = [];
 	for (let tries = 0; runIds.length < RIGS && tries < 100; tries++) {
-		runIds = (await sql<{ id: string }[]>`select id from runs where rig_id = any(${rigIds}::uuid[]) and status = 'live' and frame_count > 0`).map((r) => r.id);
+		runIds = (
+			await sql<
+				{ id: string }[]
+			>`select id from runs where rig_id = any(${rigIds}::uuid[]) and status = 'live' and frame_count > 0`
+		).map((r) => r.id);
 		if (runIds.length < RIGS) await sleep(100);
 	}
 	if (runIds.length < RIGS) throw new Error(`only ${runIds.length} of ${RIGS} runs came live`);
@@ -122,7 +162,10 @@ async function main() {
 	const sockets: WebSocket[] = [];
 	for (let v = 0; v < NODE_VIEWERS; v++) {
 		for (const runId of runIds) {
-			const ws = new WebSocket(`${wsBase}/live/${runId}`, { headers: { cookie }, perMessageDeflate: false });
+			const ws = new WebSocket(`${wsBase}/live/${runId}`, {
+				headers: { cookie },
+				perMessageDeflate: false
+			});
 			ws.on('message', (data) => {
 				const at = Date.now();
 				const m = unpackr.unpack(data as Buffer) as LiveServerMessage;
@@ -139,20 +182,36 @@ async function main() {
 	let boardMessages = 0;
 	const board = new WebSocket(`${wsBase}/live`, { headers: { cookie }, perMessageDeflate: false });
 	board.on('message', () => measuring && boardMessages++);
-	await Promise.all([...sockets, board].map((ws) => new Promise((r, j) => (ws.once('open', r), ws.once('error', j)))));
+	await Promise.all(
+		[...sockets, board].map(
+			(ws) => new Promise((r, j) => (ws.once('open', r), ws.once('error', j)))
+		)
+	);
 
 	// the browser viewer
 	const browser = withBrowser
 		? await chromium.launch({
 				executablePath: '/usr/bin/chromium',
-				args: ['--no-sandbox', '--disable-gpu', '--disable-background-networking', '--disable-component-update', '--disable-sync', '--no-first-run']
+				args: [
+					'--no-sandbox',
+					'--disable-gpu',
+					'--disable-background-networking',
+					'--disable-component-update',
+					'--disable-sync',
+					'--no-first-run'
+				]
 			})
 		: null;
-	const page = browser ? await browser.newPage({ viewport: { width: 1280, height: 800 }, baseURL: app.url }) : null;
+	const page = browser
+		? await browser.newPage({ viewport: { width: 1280, height: 800 }, baseURL: app.url })
+		: null;
 	if (page) {
 		await page.context().addCookies([{ name: 'skein_session', value: session, url: app.url }]);
 		await page.goto(`/runs/${runIds[0]}?live`);
-		await page.getByTestId('live-bar').and(page.locator('[data-state="following"]')).waitFor({ timeout: 30_000 });
+		await page
+			.getByTestId('live-bar')
+			.and(page.locator('[data-state="following"]'))
+			.waitFor({ timeout: 30_000 });
 	}
 
 	await sleep(warmupS * 1000);
@@ -164,18 +223,31 @@ async function main() {
 	const elapsed = (Date.now() - started) / 1000;
 	const screen = page ? await page.evaluate(() => window.__skeinLive?.latencies ?? []) : [];
 	const shown = page ? await page.evaluate(() => window.__skeinLive?.shown ?? 0) : 0;
-	const stats = (await (await person.json('/api/live', 'GET')).json()) as { viewers: { pending: number; skipped: number }[] };
+	const stats = (await (await person.json('/api/live', 'GET')).json()) as {
+		viewers: { pending: number; skipped: number }[];
+	};
 
-	console.log(`\nframes received by Node viewers: ${frames} in ${elapsed.toFixed(1)} s (${(frames / elapsed).toFixed(0)}/s; expected ≈ ${NODE_VIEWERS * RIGS * 20}/s), skipped by the server: ${skipped}`);
-	console.log(`board summaries received: ${boardMessages} (${(boardMessages / elapsed).toFixed(1)}/s, at most 4/s)`);
-	console.log(`viewers open at the end: ${stats.viewers.length}, max pending per viewer ${Math.max(...stats.viewers.map((v) => v.pending))}\n`);
+	console.log(
+		`\nframes received by Node viewers: ${frames} in ${elapsed.toFixed(1)} s (${(frames / elapsed).toFixed(0)}/s; expected ≈ ${NODE_VIEWERS * RIGS * 20}/s), skipped by the server: ${skipped}`
+	);
+	console.log(
+		`board summaries received: ${boardMessages} (${(boardMessages / elapsed).toFixed(1)}/s, at most 4/s)`
+	);
+	console.log(
+		`viewers open at the end: ${stats.viewers.length}, max pending per viewer ${Math.max(...stats.viewers.map((v) => v.pending))}\n`
+	);
 	console.log(row('device t → sent by the simulated rig', sendLag));
 	console.log(row('device t → committed at Skein', commitLag));
 	console.log(row('committed → Node viewer receipt', commitToViewer));
 	console.log(row('device t → Node viewer receipt', nodeLatency));
-	if (page) console.log(row('device t → on the Run screen (chromium)', screen) + `   (${shown} frames shown)`);
+	if (page)
+		console.log(
+			row('device t → on the Run screen (chromium)', screen) + `   (${shown} frames shown)`
+		);
 	const worst = Math.max(pct(nodeLatency, 99), page ? pct(screen, 99) : 0);
-	console.log(`\ntarget: p99 device time → screen < 150 ms: ${worst < 150 ? 'met' : 'NOT met'} (${worst.toFixed(1)} ms)`);
+	console.log(
+		`\ntarget: p99 device time → screen < 150 ms: ${worst < 150 ? 'met' : 'NOT met'} (${worst.toFixed(1)} ms)`
+	);
 
 	stop.abort();
 	for (const ws of sockets) ws.close();

@@ -270,10 +270,25 @@ console.log(`  summary JSON ${JSON.stringify(result).length.toLocaleString('en')
 			const x = rand() * 120 - 20;
 			const y = rand() * 30 - 15;
 			truth.push({ id: `T${i}`, x: [x, y, rand() * 20, rand() - 0.5] });
-			estimates.push({ id: i, x: [x + 0.8 * gauss(), y + 0.5 * gauss(), 10, 0], P: cov, r: 0.5 + 0.5 * rand() });
-			measurements.push({ z: [x + 0.5 * gauss(), y + 0.5 * gauss()] }, { z: [rand() * 120 - 20, rand() * 30 - 15] });
+			estimates.push({
+				id: i,
+				x: [x + 0.8 * gauss(), y + 0.5 * gauss(), 10, 0],
+				P: cov,
+				r: 0.5 + 0.5 * rand()
+			});
+			measurements.push(
+				{ z: [x + 0.5 * gauss(), y + 0.5 * gauss()] },
+				{ z: [rand() * 120 - 20, rand() * 30 - 15] }
+			);
 		}
-		shapes.push({ seq: k, t: 1_700_000_000 + k * 0.05, ego: { x: 0, y: 0, heading: 0 }, truth, estimates, measurements });
+		shapes.push({
+			seq: k,
+			t: 1_700_000_000 + k * 0.05,
+			ego: { x: 0, y: 0, heading: 0 },
+			truth,
+			estimates,
+			measurements
+		});
 	}
 	const packed = shapes.map((f) => toMsgpack({ type: 'frame', ...f }));
 	const metricCtx = { stateFields, settings: defaultMetricSettings, coords: 'world' as const };
@@ -282,9 +297,16 @@ console.log(`  summary JSON ${JSON.stringify(result).length.toLocaleString('en')
 	for (let i = 0; i < N; i++) frameMetrics(shapes[i % shapes.length], metricCtx);
 	const metricsUs = (cpuMs(a) * 1000) / N;
 	const b = process.cpuUsage();
-	for (let i = 0; i < N; i++) frameMetrics(fromMsgpack(packed[i % packed.length]) as Frame, metricCtx);
+	for (let i = 0; i < N; i++)
+		frameMetrics(fromMsgpack(packed[i % packed.length]) as Frame, metricCtx);
 	const decodedUs = (cpuMs(b) * 1000) / N;
-	console.log('\nPer-frame metric columns (40 measurements, 20 estimates 4-D with P and r, 20 truth, one zone)');
-	console.log(`  frameMetrics                ${metricsUs.toFixed(1)} µs/frame  (${(1e6 / metricsUs).toFixed(0)} frames/s on one core)`);
-	console.log(`  decode stored + frameMetrics ${decodedUs.toFixed(1)} µs/frame  (a 72,000-frame recompute: ${((72_000 * decodedUs) / 1e6).toFixed(1)} s CPU)`);
+	console.log(
+		'\nPer-frame metric columns (40 measurements, 20 estimates 4-D with P and r, 20 truth, one zone)'
+	);
+	console.log(
+		`  frameMetrics                ${metricsUs.toFixed(1)} µs/frame  (${(1e6 / metricsUs).toFixed(0)} frames/s on one core)`
+	);
+	console.log(
+		`  decode stored + frameMetrics ${decodedUs.toFixed(1)} µs/frame  (a 72,000-frame recompute: ${((72_000 * decodedUs) / 1e6).toFixed(1)} s CPU)`
+	);
 }

@@ -29,7 +29,9 @@ export async function startProfile(page: Page) {
 	await cdp.send('Profiler.start');
 	return {
 		async stop(): Promise<CpuProfile> {
-			const { profile } = (await cdp.send('Profiler.stop')) as unknown as { profile: Omit<CpuProfile, 'sources'> };
+			const { profile } = (await cdp.send('Profiler.stop')) as unknown as {
+				profile: Omit<CpuProfile, 'sources'>;
+			};
 			await cdp.detach();
 			const sources = new Map<string, string[]>();
 			for (const url of new Set(profile.nodes.map((n) => n.callFrame.url))) {
@@ -42,11 +44,13 @@ export async function startProfile(page: Page) {
 	};
 }
 
-const short = (url: string) => (url ? url.replace(/^https?:\/\/[^/]+/, '').replace(/^\/_app\/immutable\//, '') : '(native)');
+const short = (url: string) =>
+	url ? url.replace(/^https?:\/\/[^/]+/, '').replace(/^\/_app\/immutable\//, '') : '(native)';
 
 export function profileSummary(p: CpuProfile, wallMs: number, top = 22): string {
 	const byNode = new Map<number, number>();
-	for (let i = 0; i < p.samples.length; i++) byNode.set(p.samples[i], (byNode.get(p.samples[i]) ?? 0) + (p.timeDeltas[i] ?? 0) / 1000);
+	for (let i = 0; i < p.samples.length; i++)
+		byNode.set(p.samples[i], (byNode.get(p.samples[i]) ?? 0) + (p.timeDeltas[i] ?? 0) / 1000);
 	const nodes = new Map(p.nodes.map((n) => [n.id, n]));
 	const byFn = new Map<string, { ms: number; f: CallFrame }>();
 	const byScript = new Map<string, number>();
@@ -62,12 +66,22 @@ export function profileSummary(p: CpuProfile, wallMs: number, top = 22): string 
 		byScript.set(script, (byScript.get(script) ?? 0) + ms);
 	}
 	const pct = (ms: number) => `${((ms / wallMs) * 100).toFixed(1).padStart(5)} %`;
-	const lines = [`\nmain-thread profile over ${(wallMs / 1000).toFixed(1)} s (${total.toFixed(0)} ms sampled); share of wall time`, '  by script:'];
-	for (const [s, ms] of [...byScript].sort((a, b) => b[1] - a[1]).slice(0, 10)) lines.push(`    ${pct(ms)}  ${s}`);
+	const lines = [
+		`\nmain-thread profile over ${(wallMs / 1000).toFixed(1)} s (${total.toFixed(0)} ms sampled); share of wall time`,
+		'  by script:'
+	];
+	for (const [s, ms] of [...byScript].sort((a, b) => b[1] - a[1]).slice(0, 10))
+		lines.push(`    ${pct(ms)}  ${s}`);
 	lines.push('  by function (self time):');
 	for (const { ms, f } of [...byFn.values()].sort((a, b) => b.ms - a.ms).slice(0, top)) {
-		const src = p.sources.get(f.url)?.[f.lineNumber]?.slice(f.columnNumber, f.columnNumber + 60).replace(/\s+/g, ' ') ?? '';
-		lines.push(`    ${pct(ms)}  ${(f.functionName || '(anonymous)').slice(0, 28).padEnd(28)} ${short(f.url)}:${f.lineNumber + 1}:${f.columnNumber}  ${src}`);
+		const src =
+			p.sources
+				.get(f.url)
+				?.[f.lineNumber]?.slice(f.columnNumber, f.columnNumber + 60)
+				.replace(/\s+/g, ' ') ?? '';
+		lines.push(
+			`    ${pct(ms)}  ${(f.functionName || '(anonymous)').slice(0, 28).padEnd(28)} ${short(f.url)}:${f.lineNumber + 1}:${f.columnNumber}  ${src}`
+		);
 	}
 	return lines.join('\n');
 }

@@ -20,9 +20,20 @@ function newest(path: string): number {
 export function buildIfStale(): void {
 	const output = join(root, 'build', 'handler.js');
 	const built = existsSync(output) ? statSync(output).mtimeMs : 0;
-	const sources = ['src', 'static', 'svelte.config.js', 'vite.config.ts', 'tailwind.config.ts', 'package-lock.json'];
+	const sources = [
+		'src',
+		'static',
+		'svelte.config.js',
+		'vite.config.ts',
+		'tailwind.config.ts',
+		'package-lock.json'
+	];
 	const latest = Math.max(...sources.map((s) => newest(join(root, s))));
 	if (built >= latest) return;
 	process.stderr.write('[build] building the app (vite build)…\n');
-	execFileSync('npx', ['vite', 'build', '--logLevel', 'warn'], { cwd: root, stdio: 'inherit', env: { ...process.env, VITE_CONFIG_NATIVE_IGNORE_WARNING: 'true' } });
+	execFileSync('npx', ['vite', 'build', '--logLevel', 'warn'], {
+		cwd: root,
+		stdio: 'inherit',
+		env: { ...process.env, VITE_CONFIG_NATIVE_IGNORE_WARNING: 'true' }
+	});
 }

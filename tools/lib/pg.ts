@@ -4,7 +4,14 @@
  */
 import { execFileSync, spawnSync } from 'node:child_process';
 import { createHash, randomBytes } from 'node:crypto';
-import { existsSync, mkdirSync, readFileSync, readdirSync, writeFileSync, chmodSync } from 'node:fs';
+import {
+	existsSync,
+	mkdirSync,
+	readFileSync,
+	readdirSync,
+	writeFileSync,
+	chmodSync
+} from 'node:fs';
 import { join, resolve } from 'node:path';
 import postgres from 'postgres';
 
@@ -36,7 +43,10 @@ export function findBinDir(): string | null {
 function ensureBinaries(): string {
 	let bin = findBinDir();
 	if (bin) return bin;
-	if (!isRoot) throw new Error('PostgreSQL server binaries are missing; install the Debian package "postgresql" or set DATABASE_URL');
+	if (!isRoot)
+		throw new Error(
+			'PostgreSQL server binaries are missing; install the Debian package "postgresql" or set DATABASE_URL'
+		);
 	log('installing Debian package postgresql');
 	execFileSync('apt-get', ['update'], { stdio: 'inherit' });
 	execFileSync('apt-get', ['install', '-y', '--no-install-recommends', 'postgresql'], {
@@ -44,7 +54,8 @@ function ensureBinaries(): string {
 		env: { ...process.env, DEBIAN_FRONTEND: 'noninteractive' }
 	});
 	bin = findBinDir();
-	if (!bin) throw new Error('postgresql was installed but no pg_ctl was found under /usr/lib/postgresql');
+	if (!bin)
+		throw new Error('postgresql was installed but no pg_ctl was found under /usr/lib/postgresql');
 	return bin;
 }
 
@@ -98,8 +109,16 @@ export function startCluster(opts: ClusterOptions): string {
 			execFileSync('chown', ['-R', 'postgres:postgres', join(dir, '..')]);
 		}
 		asServerUser(join(bin, 'initdb'), [
-			'-D', dir, '-U', 'postgres', '-E', 'UTF8', '--locale=C',
-			'--auth-host=scram-sha-256', '--auth-local=peer', `--pwfile=${pwFile}`
+			'-D',
+			dir,
+			'-U',
+			'postgres',
+			'-E',
+			'UTF8',
+			'--locale=C',
+			'--auth-host=scram-sha-256',
+			'--auth-local=peer',
+			`--pwfile=${pwFile}`
 		]);
 		chmodSync(pwFile, 0o600);
 	}
@@ -114,8 +133,16 @@ export function startCluster(opts: ClusterOptions): string {
 			`-c shared_buffers=256MB`
 		];
 		asServerUser(join(bin, 'pg_ctl'), [
-			'-D', dir, '-l', join(dir, '..', `${opts.name}.log`), '-w', '-t', '60',
-			'-o', serverOpts.join(' '), 'start'
+			'-D',
+			dir,
+			'-l',
+			join(dir, '..', `${opts.name}.log`),
+			'-w',
+			'-t',
+			'60',
+			'-o',
+			serverOpts.join(' '),
+			'start'
 		]);
 	}
 	return clusterUrl(opts);
@@ -147,7 +174,9 @@ export async function ensureDatabase(url: string, opts: { relaxed?: boolean } = 
 			await sql.unsafe(`create database "${name.replaceAll('"', '""')}"`);
 		}
 		if (opts.relaxed) {
-			await sql.unsafe(`alter database "${name.replaceAll('"', '""')}" set synchronous_commit = off`);
+			await sql.unsafe(
+				`alter database "${name.replaceAll('"', '""')}" set synchronous_commit = off`
+			);
 		}
 	} finally {
 		await sql.end();

@@ -3,7 +3,12 @@
  * rig client (window, acks, reconnect and resume included), paced like a real rig or as fast as acks allow.
  */
 import { SkeinRigClient } from '../../src/lib/protocol/client';
-import { MEASUREMENT_FIELDS, STATE_FIELDS, getScenario, simulateFrom } from '../../src/lib/tracking';
+import {
+	MEASUREMENT_FIELDS,
+	STATE_FIELDS,
+	getScenario,
+	simulateFrom
+} from '../../src/lib/tracking';
 
 export interface SimulatedRigOptions {
 	/** ws://host:port/ingest/v1 */
@@ -46,7 +51,8 @@ const sleep = (ms: number, signal?: AbortSignal) =>
 export async function runSimulatedRig(o: SimulatedRigOptions): Promise<SimulatedRigResult> {
 	const scenario = getScenario(o.scenario);
 	const startEpoch = o.startEpoch ?? Math.round(Date.now()) / 1000;
-	const clientRunId = o.clientRunId ?? `sim-${o.scenario}-${o.seed}-${Math.round(startEpoch * 1000)}`;
+	const clientRunId =
+		o.clientRunId ?? `sim-${o.scenario}-${o.seed}-${Math.round(startEpoch * 1000)}`;
 	const log = o.log ?? (() => {});
 	const client = new SkeinRigClient({
 		url: o.url,
@@ -64,7 +70,8 @@ export async function runSimulatedRig(o: SimulatedRigOptions): Promise<Simulated
 		}
 	});
 	client.on((e) => {
-		if (e.type === 'disconnected') log(`disconnected (${e.code} ${e.reason}); retrying in ${e.retryInMs} ms`);
+		if (e.type === 'disconnected')
+			log(`disconnected (${e.code} ${e.reason}); retrying in ${e.retryInMs} ms`);
 		else if (e.type === 'opened' && e.reconnect) log(`resumed run ${e.runId} at seq ${e.nextSeq}`);
 		else if (e.type === 'server-error') log(`server: ${e.code} ${e.message}`);
 	});
@@ -72,7 +79,11 @@ export async function runSimulatedRig(o: SimulatedRigOptions): Promise<Simulated
 	log(`streaming run ${runId} (${o.scenario}, seed ${o.seed}) from seq ${nextSeq}`);
 	const wallStart = performance.now();
 	const window = 512;
-	for (const step of simulateFrom(o.scenario, { seed: o.seed, durationS: o.durationS, startEpoch, incidents: o.incidents }, nextSeq)) {
+	for (const step of simulateFrom(
+		o.scenario,
+		{ seed: o.seed, durationS: o.durationS, startEpoch, incidents: o.incidents },
+		nextSeq
+	)) {
 		if (o.signal?.aborted) break;
 		if (o.speed > 0) {
 			const due = wallStart + ((step.index - nextSeq) * scenario.dt * 1000) / o.speed;

@@ -164,15 +164,24 @@ describe('zones', () => {
 describe('far-object shortcut', () => {
 	it('agrees with the full bivariate integration to 1e-15 for objects 8σ or more from the zone', () => {
 		// the marginal bound P(inside) ≤ Φ(−8) ≈ 6.2e-16 (standard normal tail, from memory) justifies returning 0
-		const zone = { name: 'z', coords: 'ego' as const, x: [0, 20] as [number, number], y: [-1.75, 1.75] as [number, number] };
+		const zone = {
+			name: 'z',
+			coords: 'ego' as const,
+			x: [0, 20] as [number, number],
+			y: [-1.75, 1.75] as [number, number]
+		};
 		for (const [mx, my, s] of [
 			[40, 0, 2],
 			[-17, 0.5, 2],
 			[10, 30, 3],
 			[10, -1.75 - 8.01, 1]
 		]) {
-			const o = { mean: [mx, my] as [number, number], cov: [s * s, 0.2 * s * s, s * s] as [number, number, number] };
-			const full = gaussianRectProbability(o.mean, o.cov, { xMin: 0, xMax: 20, yMin: -1.75, yMax: 1.75 }) ?? 0;
+			const o = {
+				mean: [mx, my] as [number, number],
+				cov: [s * s, 0.2 * s * s, s * s] as [number, number, number]
+			};
+			const full =
+				gaussianRectProbability(o.mean, o.cov, { xMin: 0, xMax: 20, yMin: -1.75, yMax: 1.75 }) ?? 0;
 			expect(Math.abs(insideProbability(o, zone) - full)).toBeLessThan(1e-15);
 		}
 	});

@@ -76,7 +76,13 @@ export function insideProbability(o: PlanarObject, zone: Zone): number {
 	if (sxx > 0 && syy > 0) {
 		const sx = Math.sqrt(sxx);
 		const sy = Math.sqrt(syy);
-		if (rect.xMin - x > far * sx || x - rect.xMax > far * sx || rect.yMin - y > far * sy || y - rect.yMax > far * sy) return 0;
+		if (
+			rect.xMin - x > far * sx ||
+			x - rect.xMax > far * sx ||
+			rect.yMin - y > far * sy ||
+			y - rect.yMax > far * sy
+		)
+			return 0;
 	}
 	return gaussianRectProbability(local.mean, local.cov, rect) ?? pointInside;
 }

@@ -37,11 +37,23 @@ export const routeRules: Record<string, RouteRule> = {
 	'/(app)/rigs/[id=id]': { read: 'rigs:read', write: 'rigs:manage' },
 	'/(app)/people': {
 		read: 'people:read',
-		write: { invite: 'people:manage', role: 'people:manage', active: 'people:manage', revokeInvite: 'people:manage' }
+		write: {
+			invite: 'people:manage',
+			role: 'people:manage',
+			active: 'people:manage',
+			revokeInvite: 'people:manage'
+		}
 	},
 	'/(app)/settings': {
 		read: 'signed-in',
-		write: { profile: 'signed-in', password: 'signed-in', revokeSession: 'signed-in', createToken: 'signed-in', revokeToken: 'signed-in', theme: 'signed-in' }
+		write: {
+			profile: 'signed-in',
+			password: 'signed-in',
+			revokeSession: 'signed-in',
+			createToken: 'signed-in',
+			revokeToken: 'signed-in',
+			theme: 'signed-in'
+		}
 	},
 	'/(app)/settings/audit': { read: 'audit:read' },
 	'/(app)/dev/mail': { read: 'mail:dev' },
@@ -72,7 +84,11 @@ export const routeRules: Record<string, RouteRule> = {
 	'/api/live': { read: 'runs:read' }
 };
 
-export function ruleFor(routeId: string, method: string, search: URLSearchParams): Rule | undefined {
+export function ruleFor(
+	routeId: string,
+	method: string,
+	search: URLSearchParams
+): Rule | undefined {
 	const entry = routeRules[routeId];
 	if (!entry) return undefined;
 	if (method === 'GET' || method === 'HEAD' || method === 'OPTIONS') return entry.read;

@@ -37,11 +37,17 @@ export class ApiError extends Error {
 }
 
 export function errorResponse(code: ErrorCode, message: string, details?: unknown): Response {
-	return json({ error: details === undefined ? { code, message } : { code, message, details } }, { status: statusOf[code] });
+	return json(
+		{ error: details === undefined ? { code, message } : { code, message, details } },
+		{ status: statusOf[code] }
+	);
 }
 
 /** Reads a JSON body and validates it; bad JSON and bad fields become ApiErrors. */
-export async function readJson<S extends z.ZodType>(request: Request, schema: S): Promise<z.infer<S>> {
+export async function readJson<S extends z.ZodType>(
+	request: Request,
+	schema: S
+): Promise<z.infer<S>> {
 	let body: unknown;
 	try {
 		body = await request.json();
@@ -49,7 +55,8 @@ export async function readJson<S extends z.ZodType>(request: Request, schema: S)
 		throw new ApiError('bad_request', 'The body must be JSON');
 	}
 	const parsed = schema.safeParse(body);
-	if (!parsed.success) throw new ApiError('invalid', 'Some fields are not valid', fieldErrors(parsed.error));
+	if (!parsed.success)
+		throw new ApiError('invalid', 'Some fields are not valid', fieldErrors(parsed.error));
 	return parsed.data;
 }
 
@@ -61,7 +68,11 @@ export function endpoint<E>(fn: (event: E) => Promise<Response>): (event: E) => 
 		} catch (err) {
 			if (err instanceof ApiError) return errorResponse(err.code, err.message, err.details);
 			if (err instanceof PeopleError) {
-				return errorResponse(err.code, err.message, err.field ? { [err.field]: err.message } : undefined);
+				return errorResponse(
+					err.code,
+					err.message,
+					err.field ? { [err.field]: err.message } : undefined
+				);
 			}
 			throw err;
 		}

@@ -30,22 +30,39 @@ export const inviteSchema = z.object({ email: emailField, role: roleField });
 
 export const acceptInviteSchema = z
 	.object({ name: nameField, password: passwordField, confirm: z.string() })
-	.refine((v) => v.password === v.confirm, { path: ['confirm'], message: 'Passwords do not match' });
+	.refine((v) => v.password === v.confirm, {
+		path: ['confirm'],
+		message: 'Passwords do not match'
+	});
 
 export const resetRequestSchema = z.object({ email: emailField });
 
 export const resetSchema = z
 	.object({ password: passwordField, confirm: z.string() })
-	.refine((v) => v.password === v.confirm, { path: ['confirm'], message: 'Passwords do not match' });
+	.refine((v) => v.password === v.confirm, {
+		path: ['confirm'],
+		message: 'Passwords do not match'
+	});
 
 export const changePasswordSchema = z
-	.object({ current: z.string().min(1, 'Enter your current password'), password: passwordField, confirm: z.string() })
-	.refine((v) => v.password === v.confirm, { path: ['confirm'], message: 'Passwords do not match' });
+	.object({
+		current: z.string().min(1, 'Enter your current password'),
+		password: passwordField,
+		confirm: z.string()
+	})
+	.refine((v) => v.password === v.confirm, {
+		path: ['confirm'],
+		message: 'Passwords do not match'
+	});
 
 export const setRoleSchema = z.object({ role: roleField });
 
 export const tokenNameSchema = z.object({
-	name: z.string({ error: 'Enter a name' }).trim().min(1, 'Enter a name').max(80, 'At most 80 characters')
+	name: z
+		.string({ error: 'Enter a name' })
+		.trim()
+		.min(1, 'Enter a name')
+		.max(80, 'At most 80 characters')
 });
 
 export const addPersonSchema = z.object({

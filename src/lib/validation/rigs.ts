@@ -6,9 +6,15 @@ export const rigNameField = z
 	.min(1, 'Enter a rig name')
 	.max(80, 'At most 80 characters');
 
-export const rigDescriptionField = z.string({ error: 'Description must be text' }).trim().max(500, 'At most 500 characters');
+export const rigDescriptionField = z
+	.string({ error: 'Description must be text' })
+	.trim()
+	.max(500, 'At most 500 characters');
 
-export const keyLabelField = z.string({ error: 'Label must be text' }).trim().max(80, 'At most 80 characters');
+export const keyLabelField = z
+	.string({ error: 'Label must be text' })
+	.trim()
+	.max(80, 'At most 80 characters');
 
 /** Rotation grace: from 0 (the old key stops at once) to 7 days, in minutes. */
 export const maxGraceMinutes = 7 * 24 * 60;
@@ -26,9 +32,15 @@ export const graceChoices: { minutes: number; label: string }[] = [
 const graceMessage = `Grace period must be a whole number of minutes from 0 to ${maxGraceMinutes} (7 days)`;
 
 export const graceField = z
-	.union([z.number({ error: graceMessage }), z.string({ error: graceMessage }).trim().regex(/^\d+$/, graceMessage).transform(Number)], {
-		error: graceMessage
-	})
+	.union(
+		[
+			z.number({ error: graceMessage }),
+			z.string({ error: graceMessage }).trim().regex(/^\d+$/, graceMessage).transform(Number)
+		],
+		{
+			error: graceMessage
+		}
+	)
 	.pipe(z.number().int(graceMessage).min(0, graceMessage).max(maxGraceMinutes, graceMessage));
 
 /**
@@ -36,7 +48,9 @@ export const graceField = z
  * so such values are read as UTC too. Empty or null means "never expires".
  */
 export const expiresField = z
-	.union([z.string({ error: 'Expiry must be a date and time' }), z.null()], { error: 'Expiry must be a date and time' })
+	.union([z.string({ error: 'Expiry must be a date and time' }), z.null()], {
+		error: 'Expiry must be a date and time'
+	})
 	.optional()
 	.transform((value, ctx) => {
 		const v = value?.trim();
@@ -44,7 +58,10 @@ export const expiresField = z
 		const zoned = /^\d{4}-\d{2}-\d{2}T\d{2}:\d{2}(:\d{2}(\.\d+)?)?$/.test(v) ? `${v}Z` : v;
 		const at = new Date(zoned);
 		if (!/^\d{4}-\d{2}-\d{2}T/.test(v) || Number.isNaN(at.getTime())) {
-			ctx.addIssue({ code: 'custom', message: 'Expiry must be a date and time, e.g. 2030-01-31T18:00Z' });
+			ctx.addIssue({
+				code: 'custom',
+				message: 'Expiry must be a date and time, e.g. 2030-01-31T18:00Z'
+			});
 			return z.NEVER;
 		}
 		if (at.getTime() <= Date.now()) {
@@ -54,9 +71,15 @@ export const expiresField = z
 		return at;
 	});
 
-export const createRigSchema = z.object({ name: rigNameField, description: rigDescriptionField.optional().default('') });
+export const createRigSchema = z.object({
+	name: rigNameField,
+	description: rigDescriptionField.optional().default('')
+});
 
-export const rigDetailsSchema = z.object({ name: rigNameField, description: rigDescriptionField.default('') });
+export const rigDetailsSchema = z.object({
+	name: rigNameField,
+	description: rigDescriptionField.default('')
+});
 
 export const patchRigSchema = z
 	.object({
@@ -69,10 +92,15 @@ export const patchRigSchema = z
 		message: 'Send name, description and/or archived'
 	});
 
-export const createKeySchema = z.object({ label: keyLabelField.optional().default(''), expiresAt: expiresField });
+export const createKeySchema = z.object({
+	label: keyLabelField.optional().default(''),
+	expiresAt: expiresField
+});
 
 export const labelKeySchema = z.object({ label: keyLabelField });
 
 export const rotateKeySchema = z.object({ grace_minutes: graceField });
 
-export const uuidField = z.string().regex(/^[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}$/i, 'Unknown id');
+export const uuidField = z
+	.string()
+	.regex(/^[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}$/i, 'Unknown id');

@@ -1,11 +1,20 @@
 import { z } from 'zod';
 
-const seq = z.coerce.number({ error: 'must be a number' }).int('must be an integer').min(0, 'must be ≥ 0');
-const time = z.coerce.number({ error: 'must be a number' }).refine(Number.isFinite, 'must be finite');
+const seq = z.coerce
+	.number({ error: 'must be a number' })
+	.int('must be an integer')
+	.min(0, 'must be ≥ 0');
+const time = z.coerce
+	.number({ error: 'must be a number' })
+	.refine(Number.isFinite, 'must be finite');
 
 export const runListQuery = z.object({
 	rig: z.uuid({ error: 'rig must be a rig id' }).optional(),
-	status: z.enum(['live', 'ended', 'interrupted', 'imported'], { error: 'status must be live, ended, interrupted or imported' }).optional(),
+	status: z
+		.enum(['live', 'ended', 'interrupted', 'imported'], {
+			error: 'status must be live, ended, interrupted or imported'
+		})
+		.optional(),
 	limit: z.coerce.number().int().min(1).max(500).default(50),
 	offset: z.coerce.number().int().min(0).default(0)
 });
@@ -16,10 +25,21 @@ export const frameQuery = z
 		to_seq: seq.optional(),
 		from: time.optional(),
 		to: time.optional(),
-		limit: z.coerce.number().int().min(1, 'limit must be 1..5000').max(5000, 'limit must be 1..5000').default(500)
+		limit: z.coerce
+			.number()
+			.int()
+			.min(1, 'limit must be 1..5000')
+			.max(5000, 'limit must be 1..5000')
+			.default(500)
 	})
-	.refine((q) => q.from_seq === undefined || q.to_seq === undefined || q.from_seq <= q.to_seq, { path: ['to_seq'], message: 'to_seq must be ≥ from_seq' })
-	.refine((q) => q.from === undefined || q.to === undefined || q.from <= q.to, { path: ['to'], message: 'to must be ≥ from' });
+	.refine((q) => q.from_seq === undefined || q.to_seq === undefined || q.from_seq <= q.to_seq, {
+		path: ['to_seq'],
+		message: 'to_seq must be ≥ from_seq'
+	})
+	.refine((q) => q.from === undefined || q.to === undefined || q.from <= q.to, {
+		path: ['to'],
+		message: 'to must be ≥ from'
+	});
 
 export const pageQuery = z.object({
 	limit: z.coerce.number().int().min(1).max(1000).default(100),
@@ -39,10 +59,15 @@ export const runSearchQuery = runListQuery
 		q: z.string().trim().max(200).optional(),
 		since: day.optional(),
 		until: day.optional(),
-		sort: z.enum(runSortKeys, { error: `sort must be one of ${runSortKeys.join(', ')}` }).default('started'),
+		sort: z
+			.enum(runSortKeys, { error: `sort must be one of ${runSortKeys.join(', ')}` })
+			.default('started'),
 		dir: z.enum(['asc', 'desc'], { error: 'dir must be asc or desc' }).default('desc')
 	})
-	.refine((q) => !q.since || !q.until || q.since <= q.until, { path: ['until'], message: 'until must be on or after since' });
+	.refine((q) => !q.since || !q.until || q.since <= q.until, {
+		path: ['until'],
+		message: 'until must be on or after since'
+	});
 export type RunSearch = z.infer<typeof runSearchQuery>;
 
 // ── Strips: downsampled metric series ──
@@ -51,12 +76,28 @@ export const seriesQuery = z
 		/** seconds from the run's first frame */
 		from: time.optional(),
 		to: time.optional(),
-		buckets: z.coerce.number().int('buckets must be an integer').min(1, 'buckets must be 1..4000').max(4000, 'buckets must be 1..4000').default(600)
+		buckets: z.coerce
+			.number()
+			.int('buckets must be an integer')
+			.min(1, 'buckets must be 1..4000')
+			.max(4000, 'buckets must be 1..4000')
+			.default(600)
 	})
-	.refine((q) => q.from === undefined || q.to === undefined || q.from < q.to, { path: ['to'], message: 'to must be above from' });
+	.refine((q) => q.from === undefined || q.to === undefined || q.from < q.to, {
+		path: ['to'],
+		message: 'to must be above from'
+	});
 
 // ── Pins ──
-export const pinCategories = ['missed object', 'false object', 'late confirmation', 'label switch', 'poor localisation', 'feed problem', 'other'] as const;
+export const pinCategories = [
+	'missed object',
+	'false object',
+	'late confirmation',
+	'label switch',
+	'poor localisation',
+	'feed problem',
+	'other'
+] as const;
 export const pinSeverities = ['low', 'medium', 'high', 'critical'] as const;
 export type PinCategory = (typeof pinCategories)[number];
 export type PinSeverity = (typeof pinSeverities)[number];
@@ -74,12 +115,23 @@ export const pinViewSchema = z.object({
 export type PinView = z.infer<typeof pinViewSchema>;
 
 export const newPinSchema = z.object({
-	title: z.string({ error: 'give the pin a title' }).trim().min(1, 'give the pin a title').max(140, 'at most 140 characters'),
+	title: z
+		.string({ error: 'give the pin a title' })
+		.trim()
+		.min(1, 'give the pin a title')
+		.max(140, 'at most 140 characters'),
 	note: z.string().trim().max(4000, 'at most 4000 characters').default(''),
-	category: z.enum(pinCategories, { error: `category must be one of: ${pinCategories.join(', ')}` }),
-	severity: z.enum(pinSeverities, { error: `severity must be one of: ${pinSeverities.join(', ')}` }),
+	category: z.enum(pinCategories, {
+		error: `category must be one of: ${pinCategories.join(', ')}`
+	}),
+	severity: z.enum(pinSeverities, {
+		error: `severity must be one of: ${pinSeverities.join(', ')}`
+	}),
 	/** seconds from the run's first frame */
-	t: z.coerce.number({ error: 't must be a number' }).refine(Number.isFinite, 't must be a number').min(0, 't must be ≥ 0'),
+	t: z.coerce
+		.number({ error: 't must be a number' })
+		.refine(Number.isFinite, 't must be a number')
+		.min(0, 't must be ≥ 0'),
 	view: pinViewSchema
 });
 export type NewPin = z.infer<typeof newPinSchema>;

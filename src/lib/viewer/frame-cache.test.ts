@@ -11,11 +11,23 @@ function setup(maxWindows = 4) {
 	const fetchWindow: FetchWindow = (from, to, signal) =>
 		new Promise<Frame[]>((resolve) => {
 			const frames: Frame[] = [];
-			for (let k = Math.max(0, Math.ceil((from - T0) * HZ - 1e-9)); k / HZ + T0 <= to + 1e-9 && k < 600; k++) frames.push({ seq: k, t: T0 + k / HZ, estimates: [] });
+			for (
+				let k = Math.max(0, Math.ceil((from - T0) * HZ - 1e-9));
+				k / HZ + T0 <= to + 1e-9 && k < 600;
+				k++
+			)
+				frames.push({ seq: k, t: T0 + k / HZ, estimates: [] });
 			pending.push({ from, to, signal, resolve: () => resolve(frames) });
 		});
 	let changes = 0;
-	const cache = new FrameCache({ firstT: T0, duration: 59.9, windowS: 5, maxWindows, fetchWindow, onChange: () => changes++ });
+	const cache = new FrameCache({
+		firstT: T0,
+		duration: 59.9,
+		windowS: 5,
+		maxWindows,
+		fetchWindow,
+		onChange: () => changes++
+	});
 	const flush = async () => {
 		for (const p of pending.splice(0)) p.resolve();
 		await new Promise((r) => setTimeout(r, 0));
@@ -82,7 +94,9 @@ describe('FrameCache', () => {
 	it('covers the trail span behind the playhead', async () => {
 		const { cache, pending } = setup(8);
 		cache.want(21, 1, 10, 1);
-		expect(pending.map((p) => Math.round(p.from - T0)).sort((a, b) => a - b)).toEqual([10, 15, 20, 25]);
+		expect(pending.map((p) => Math.round(p.from - T0)).sort((a, b) => a - b)).toEqual([
+			10, 15, 20, 25
+		]);
 	});
 
 	it('steps frame by frame across window edges and stops where frames are not loaded', async () => {
@@ -104,7 +118,8 @@ describe('FrameCache', () => {
 			duration: 10,
 			windowS: 5,
 			maxWindows: 4,
-			fetchWindow: () => (++calls === 1 ? Promise.reject(new Error('offline')) : Promise.resolve([{ seq: 0, t: T0 }]))
+			fetchWindow: () =>
+				++calls === 1 ? Promise.reject(new Error('offline')) : Promise.resolve([{ seq: 0, t: T0 }])
 		});
 		cache.want(0, 1, 0, 0);
 		await new Promise((r) => setTimeout(r, 0));
@@ -120,10 +135,20 @@ describe('FrameCache', () => {
 	it('draws the probed frame at the playhead before its window arrives, and drops stale probes and windows', async () => {
 		const probes: { at: number; signal: AbortSignal; resolve: (f: Frame[]) => void }[] = [];
 		const windows: { from: number; signal: AbortSignal }[] = [];
-		const fetchProbe: FetchProbe = (at, signal) => new Promise((resolve) => probes.push({ at, signal, resolve }));
-		const fetchWindow: FetchWindow = (from, _to, signal) => new Promise(() => windows.push({ from, signal }));
+		const fetchProbe: FetchProbe = (at, signal) =>
+			new Promise((resolve) => probes.push({ at, signal, resolve }));
+		const fetchWindow: FetchWindow = (from, _to, signal) =>
+			new Promise(() => windows.push({ from, signal }));
 		let changes = 0;
-		const cache = new FrameCache({ firstT: T0, duration: 59.9, windowS: 5, maxWindows: 8, fetchWindow, fetchProbe, onChange: () => changes++ });
+		const cache = new FrameCache({
+			firstT: T0,
+			duration: 59.9,
+			windowS: 5,
+			maxWindows: 8,
+			fetchWindow,
+			fetchProbe,
+			onChange: () => changes++
+		});
 		cache.want(30.05, 1, 5);
 		expect(probes).toHaveLength(1);
 		expect(windows).toHaveLength(0); // the windows wait for the probe
@@ -144,6 +169,8 @@ describe('FrameCache', () => {
 		cache.want(50.05, 1, 5); // the player asks again when the probe is in: now the windows load
 		expect(windows.map((w) => Math.round(w.from - T0))).toEqual([50, 55, 45]);
 		cache.want(20.05, 1, 5);
-		expect(windows.filter((w) => w.signal.aborted).map((w) => Math.round(w.from - T0))).toEqual([50, 55, 45]);
+		expect(windows.filter((w) => w.signal.aborted).map((w) => Math.round(w.from - T0))).toEqual([
+			50, 55, 45
+		]);
 	});
 });

@@ -151,7 +151,13 @@ export class FrameCache {
 		}
 		if (p && Math.abs(p.t - t) <= EPS) return;
 		p?.abort.abort();
-		const probe: Probe = { t, state: 'loading', frame: null, frameT: 0, abort: new AbortController() };
+		const probe: Probe = {
+			t,
+			state: 'loading',
+			frame: null,
+			frameT: 0,
+			abort: new AbortController()
+		};
 		this.#probe = probe;
 		const at = this.#o.firstT + t;
 		this.#o.fetchProbe(at + EPS, probe.abort.signal).then(
@@ -174,7 +180,14 @@ export class FrameCache {
 
 	#load(index: number) {
 		const abort = new AbortController();
-		const w: Window = { index, state: 'loading', failedAt: 0, frames: [], times: new Float64Array(0), abort };
+		const w: Window = {
+			index,
+			state: 'loading',
+			failedAt: 0,
+			frames: [],
+			times: new Float64Array(0),
+			abort
+		};
 		this.#windows.set(index, w);
 		const from = this.#o.firstT + index * this.#o.windowS;
 		const to = from + this.#o.windowS;
@@ -213,7 +226,8 @@ export class FrameCache {
 	lookup(t: number): Lookup | null {
 		const p = this.#probe;
 		const w = this.#windows.get(this.indexOf(t));
-		if (p?.frame && Math.abs(p.t - t) <= EPS && w?.state !== 'ready') return { frame: p.frame, t: p.frameT, exact: true };
+		if (p?.frame && Math.abs(p.t - t) <= EPS && w?.state !== 'ready')
+			return { frame: p.frame, t: p.frameT, exact: true };
 		if (w?.state === 'ready' && w.frames.length) {
 			const i = atOrBefore(w.times, t);
 			if (i >= 0) return { frame: w.frames[i], t: w.times[i], exact: true };
@@ -248,7 +262,8 @@ export class FrameCache {
 		for (let i = this.indexOf(from); i <= this.indexOf(to); i++) {
 			const w = this.#windows.get(i);
 			if (w?.state !== 'ready') continue;
-			for (let k = 0; k < w.frames.length; k++) if (w.times[k] >= from && w.times[k] <= to) out.push(w.frames[k]);
+			for (let k = 0; k < w.frames.length; k++)
+				if (w.times[k] >= from && w.times[k] <= to) out.push(w.frames[k]);
 		}
 		return out;
 	}

@@ -96,7 +96,9 @@ export interface BoardRun {
 }
 
 /** A tile before any frame was seen by this board. */
-export function quietTile(run: Pick<LiveRunInfo, 'id' | 'name' | 'rig' | 'state' | 'last_t' | 'frames'>): BoardRun {
+export function quietTile(
+	run: Pick<LiveRunInfo, 'id' | 'name' | 'rig' | 'state' | 'last_t' | 'frames'>
+): BoardRun {
 	return {
 		id: run.id,
 		name: run.name,
@@ -120,7 +122,8 @@ export interface BoardMessage {
 	runs: BoardRun[];
 }
 
-export type LiveServerMessage = HelloMessage | LiveFrameMessage | StateMessage | PongMessage | BoardMessage;
+export type LiveServerMessage =
+	HelloMessage | LiveFrameMessage | StateMessage | PongMessage | BoardMessage;
 
 /** The only message a viewer sends: a clock probe, answered with `pong`. */
 export interface PingMessage {

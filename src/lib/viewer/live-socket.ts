@@ -81,7 +81,10 @@ export class LiveSocket {
 		ws.onclose = (e) => {
 			clearInterval(this.#pingTimer);
 			this.#ws = null;
-			const final = e.code === LiveCloseCode.runEnded || e.code === LiveCloseCode.sessionInvalid || e.code === LiveCloseCode.forbidden;
+			const final =
+				e.code === LiveCloseCode.runEnded ||
+				e.code === LiveCloseCode.sessionInvalid ||
+				e.code === LiveCloseCode.forbidden;
 			if (this.#stopped || final) {
 				this.#o.onStatus?.('closed', e.reason);
 				return;
@@ -101,7 +104,8 @@ export class LiveSocket {
 	}
 
 	#ping() {
-		if (this.#ws?.readyState === WebSocket.OPEN) this.#ws.send(new Uint8Array(packr.pack({ type: 'ping', c: this.now() })));
+		if (this.#ws?.readyState === WebSocket.OPEN)
+			this.#ws.send(new Uint8Array(packr.pack({ type: 'ping', c: this.now() })));
 	}
 
 	/** NTP-style: the sample with the shortest round trip in the last minute gives the offset. */

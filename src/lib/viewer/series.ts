@@ -16,7 +16,13 @@ export function bucketOf(t: number, from: number, width: number, buckets: number
 	return Math.min(Math.floor((t - from) / width), buckets - 1);
 }
 
-export function downsample(times: ArrayLike<number>, values: ArrayLike<number | null>, from: number, to: number, buckets: number): Buckets {
+export function downsample(
+	times: ArrayLike<number>,
+	values: ArrayLike<number | null>,
+	from: number,
+	to: number,
+	buckets: number
+): Buckets {
 	const width = (to - from) / buckets;
 	const acc = new Map<number, { n: number; k: number; sum: number; min: number; max: number }>();
 	for (let i = 0; i < times.length; i++) {

@@ -19,5 +19,9 @@ export function formatDuration(seconds: number | null): string {
 	const h = Math.floor(s / 3600);
 	const m = Math.floor((s % 3600) / 60);
 	const sec = s % 60;
-	return h > 0 ? `${h} h ${String(m).padStart(2, '0')} min` : m > 0 ? `${m} min ${String(sec).padStart(2, '0')} s` : `${sec} s`;
+	return h > 0
+		? `${h} h ${String(m).padStart(2, '0')} min`
+		: m > 0
+			? `${m} min ${String(sec).padStart(2, '0')} s`
+			: `${sec} s`;
 }

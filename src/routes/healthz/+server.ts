@@ -8,7 +8,11 @@ export const GET: RequestHandler = async () => {
 		return json({ status: 'ok', database: 'reachable' });
 	} catch (err) {
 		return json(
-			{ status: 'unavailable', database: 'unreachable', error: { code: 'unavailable', message: err instanceof Error ? err.message : String(err) } },
+			{
+				status: 'unavailable',
+				database: 'unreachable',
+				error: { code: 'unavailable', message: err instanceof Error ? err.message : String(err) }
+			},
 			{ status: 503 }
 		);
 	}

@@ -16,5 +16,12 @@ export async function audit(
 ): Promise<void> {
 	await db()
 		.insert(schema.auditLog)
-		.values({ actorId: actor.id, actorLabel: actor.label, action, target, ip: actor.ip ?? null, details });
+		.values({
+			actorId: actor.id,
+			actorLabel: actor.label,
+			action,
+			target,
+			ip: actor.ip ?? null,
+			details
+		});
 }

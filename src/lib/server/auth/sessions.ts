@@ -25,7 +25,13 @@ export interface SessionInfo {
 export interface SessionCookie {
 	name: string;
 	value: string;
-	attributes: { path: string; httpOnly: boolean; sameSite: 'lax'; maxAge?: number; secure: boolean };
+	attributes: {
+		path: string;
+		httpOnly: boolean;
+		sameSite: 'lax';
+		maxAge?: number;
+		secure: boolean;
+	};
 }
 
 function createLucia() {
@@ -53,7 +59,10 @@ declare module 'lucia' {
 
 export const sessionCookieName = 'skein_session';
 
-export async function createSession(userId: string, meta: { ip: string | null; userAgent: string | null }) {
+export async function createSession(
+	userId: string,
+	meta: { ip: string | null; userAgent: string | null }
+) {
 	const session = await lucia().createSession(userId, meta);
 	return { id: session.id, userId: session.userId, expiresAt: session.expiresAt, fresh: true };
 }
@@ -68,7 +77,12 @@ export async function validateSession(
 		return null;
 	}
 	return {
-		session: { id: session.id, userId: session.userId, expiresAt: session.expiresAt, fresh: session.fresh },
+		session: {
+			id: session.id,
+			userId: session.userId,
+			expiresAt: session.expiresAt,
+			fresh: session.fresh
+		},
 		user: { id: user.id, email: user.email, name: user.name, role: user.role, active: user.active }
 	};
 }

@@ -17,8 +17,14 @@ export async function checkSignInThrottle(email: string, ip: string): Promise<Th
 	const since = new Date(Date.now() - throttleLimits.windowMinutes * 60_000);
 	const f = schema.signInFailures;
 	const [[byAccount], [byAddress]] = await Promise.all([
-		db().select({ n: count() }).from(f).where(and(eq(f.email, email.toLowerCase()), gt(f.at, since))),
-		db().select({ n: count() }).from(f).where(and(eq(f.ip, ip), gt(f.at, since)))
+		db()
+			.select({ n: count() })
+			.from(f)
+			.where(and(eq(f.email, email.toLowerCase()), gt(f.at, since))),
+		db()
+			.select({ n: count() })
+			.from(f)
+			.where(and(eq(f.ip, ip), gt(f.at, since)))
 	]);
 	const minutes = throttleLimits.windowMinutes;
 	if (byAccount.n >= throttleLimits.perAccount) {
@@ -28,7 +34,10 @@ export async function checkSignInThrottle(email: string, ip: string): Promise<Th
 		};
 	}
 	if (byAddress.n >= throttleLimits.perAddress) {
-		return { allowed: false, message: `Too many failed sign-ins from your address. Wait ${minutes} minutes.` };
+		return {
+			allowed: false,
+			message: `Too many failed sign-ins from your address. Wait ${minutes} minutes.`
+		};
 	}
 	return { allowed: true };
 }
@@ -37,9 +46,13 @@ export async function recordSignInFailure(email: string, ip: string): Promise<vo
 	const f = schema.signInFailures;
 	await db().insert(f).values({ email: email.toLowerCase(), ip });
 	// keep the table small
-	await db().delete(f).where(lt(f.at, new Date(Date.now() - 24 * 3600_000)));
+	await db()
+		.delete(f)
+		.where(lt(f.at, new Date(Date.now() - 24 * 3600_000)));
 }
 
 export async function clearSignInFailures(email: string): Promise<void> {
-	await db().delete(schema.signInFailures).where(eq(schema.signInFailures.email, email.toLowerCase()));
+	await db()
+		.delete(schema.signInFailures)
+		.where(eq(schema.signInFailures.email, email.toLowerCase()));
 }

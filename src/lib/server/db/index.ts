@@ -23,7 +23,11 @@ let database: Database | undefined;
  */
 function tcpNoDelay(options: { host: string[]; port: number[] }): Promise<Socket> {
 	return new Promise((resolve, reject) => {
-		const socket = createConnection({ host: options.host[0], port: options.port[0], noDelay: true });
+		const socket = createConnection({
+			host: options.host[0],
+			port: options.port[0],
+			noDelay: true
+		});
 		socket.once('connect', () => {
 			socket.off('error', reject);
 			resolve(socket);
@@ -34,7 +38,10 @@ function tcpNoDelay(options: { host: string[]; port: number[] }): Promise<Socket
 
 function connect(): postgres.Sql {
 	// `socket` is a documented postgres.js option its type declarations leave out
-	const options = Object.assign({ max: Number(process.env.DATABASE_POOL ?? 10), onnotice: () => {} }, { socket: tcpNoDelay });
+	const options = Object.assign(
+		{ max: Number(process.env.DATABASE_POOL ?? 10), onnotice: () => {} },
+		{ socket: tcpNoDelay }
+	);
 	return postgres(databaseUrl(), options);
 }
 

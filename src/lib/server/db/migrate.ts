@@ -4,7 +4,10 @@ import { resolve } from 'node:path';
 import postgres from 'postgres';
 
 /** Applies the committed migrations in `drizzle/`, then makes sure today's and the next days' frame partitions exist. */
-export async function applyMigrations(url: string, migrationsFolder = resolve('drizzle')): Promise<void> {
+export async function applyMigrations(
+	url: string,
+	migrationsFolder = resolve('drizzle')
+): Promise<void> {
 	const sql = postgres(url, { max: 1, onnotice: () => {} });
 	try {
 		await migrate(drizzle(sql), { migrationsFolder });

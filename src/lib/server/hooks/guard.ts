@@ -15,7 +15,8 @@ export const guard: Handle = async ({ event, resolve }) => {
 
 	const deny = (status: 401 | 403 | 405, message: string) => {
 		if (isApi) {
-			const code = status === 401 ? 'unauthenticated' : status === 403 ? 'forbidden' : 'method_not_allowed';
+			const code =
+				status === 401 ? 'unauthenticated' : status === 403 ? 'forbidden' : 'method_not_allowed';
 			return json({ error: { code, message } }, { status });
 		}
 		error(status, message);

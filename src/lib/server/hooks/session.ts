@@ -1,5 +1,10 @@
 import type { Handle } from '@sveltejs/kit';
-import { blankSessionCookie, sessionCookie, sessionCookieName, validateSession } from '$server/auth/sessions';
+import {
+	blankSessionCookie,
+	sessionCookie,
+	sessionCookieName,
+	validateSession
+} from '$server/auth/sessions';
 import { userForApiToken } from '$server/people';
 
 /** Resolves the session cookie or a personal API token (Bearer) into `locals`. */
@@ -13,7 +18,13 @@ export const session: Handle = async ({ event, resolve }) => {
 	if (auth?.startsWith('Bearer ') && event.url.pathname.startsWith('/api/')) {
 		const user = await userForApiToken(auth.slice(7).trim());
 		if (user) {
-			event.locals.user = { id: user.id, email: user.email, name: user.name, role: user.role, active: user.active };
+			event.locals.user = {
+				id: user.id,
+				email: user.email,
+				name: user.name,
+				role: user.role,
+				active: user.active
+			};
 			event.locals.via = 'token';
 		}
 		return resolve(event);

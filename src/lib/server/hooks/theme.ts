@@ -11,6 +11,7 @@ export function themeOf(value: string | undefined): Theme {
 export const theme: Handle = ({ event, resolve }) => {
 	// read when rendering, so a theme chosen by this very request already applies
 	return resolve(event, {
-		transformPageChunk: ({ html }) => html.replace('%skein.theme%', themeOf(event.cookies.get('skein_theme')))
+		transformPageChunk: ({ html }) =>
+			html.replace('%skein.theme%', themeOf(event.cookies.get('skein_theme')))
 	});
 };

@@ -30,7 +30,10 @@ export async function createPartitionsAhead(sql: postgres.Sql, ahead = 2): Promi
  * Retention: frames older than `days` are removed, except for kept runs. Whole day partitions go at
  * once when no kept run has frames in them; otherwise only the unkept runs' rows are deleted.
  */
-export async function applyRetention(sql: postgres.Sql, days: number): Promise<{ dropped: string[]; trimmed: string[] }> {
+export async function applyRetention(
+	sql: postgres.Sql,
+	days: number
+): Promise<{ dropped: string[]; trimmed: string[] }> {
 	const cutoff = new Date(Date.now() - days * dayMs);
 	const parts = await sql<{ name: string; upper: Date }[]>`
 		select c.relname as name,

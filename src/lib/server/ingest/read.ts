@@ -15,7 +15,11 @@ const runColumns = `r.id, r.rig_id, g.name as rig_name, r.client_run_id, r.name,
 	r.length_unit, r.tags, r.notes, r.status, r.started_at, coalesce(to_timestamp(r.first_t), r.started_at) as recorded_at, r.ended_at, r.first_t, r.last_t, r.next_seq::float8 as next_seq,
 	r.frame_count::float8 as frame_count, r.quarantine_count::float8 as quarantine_count, r.kept, r.metric_settings`;
 
-type RunRow = Record<string, unknown> & { first_t: number | null; last_t: number | null; frame_count: number };
+type RunRow = Record<string, unknown> & {
+	first_t: number | null;
+	last_t: number | null;
+	frame_count: number;
+};
 
 function present(row: RunRow) {
 	const duration = row.first_t !== null && row.last_t !== null ? row.last_t - row.first_t : null;
@@ -41,7 +45,9 @@ export async function listRuns(f: RunListFilter) {
 
 export async function getRun(id: string) {
 	const sql = sqlClient();
-	const [row] = await sql<RunRow[]>`select ${sql.unsafe(runColumns)} from runs r join rigs g on g.id = r.rig_id where r.id = ${id}`;
+	const [row] = await sql<
+		RunRow[]
+	>`select ${sql.unsafe(runColumns)} from runs r join rigs g on g.id = r.rig_id where r.id = ${id}`;
 	return row ? present(row) : null;
 }
 
@@ -76,7 +82,9 @@ export async function readFrames(runId: string, r: FrameRange) {
 
 export async function readQuarantine(runId: string, limit: number, offset: number) {
 	const sql = sqlClient();
-	const rows = await sql<{ id: number; seq: number | null; received_at: Date; reason: string; raw: Buffer }[]>`
+	const rows = await sql<
+		{ id: number; seq: number | null; received_at: Date; reason: string; raw: Buffer }[]
+	>`
 		select id::float8 as id, seq::float8 as seq, received_at, reason, raw from quarantine
 		where run_id = ${runId} order by seq nulls last, id limit ${limit} offset ${offset}`;
 	return rows.map((q) => ({
@@ -138,7 +146,9 @@ export async function runFacets() {
 	const sql = sqlClient();
 	const [tags, rigs] = await Promise.all([
 		sql<{ tag: string }[]>`select distinct unnest(tags) as tag from runs order by 1 limit 500`,
-		sql<{ id: string; name: string }[]>`select distinct g.id, g.name from rigs g join runs r on r.rig_id = g.id order by g.name`
+		sql<
+			{ id: string; name: string }[]
+		>`select distinct g.id, g.name from rigs g join runs r on r.rig_id = g.id order by g.name`
 	]);
 	return { tags: tags.map((t) => t.tag), rigs };
 }
@@ -182,13 +192,22 @@ export interface RunSeries {
  * min/max/mean of each metric column per time bucket, grouped in SQL (floor of (t − from)/width), so a
  * one-hour run arrives as a few hundred points; `from`/`to` are seconds from run start, for zooming in.
  */
-export async function readSeries(runId: string, firstT: number, from: number, to: number, buckets: number): Promise<RunSeries> {
+export async function readSeries(
+	runId: string,
+	firstT: number,
+	from: number,
+	to: number,
+	buckets: number
+): Promise<RunSeries> {
 	const sql = sqlClient();
 	const width = (to - from) / buckets;
 	const a = firstT + from;
 	const b = firstT + to;
 	const aggs = seriesColumns
-		.map((c) => `min(${c})::float8 as ${c}_min, max(${c})::float8 as ${c}_max, avg(${c})::float8 as ${c}_mean`)
+		.map(
+			(c) =>
+				`min(${c})::float8 as ${c}_min, max(${c})::float8 as ${c}_max, avg(${c})::float8 as ${c}_mean`
+		)
 		.join(', ');
 	const [rows, zoneRows] = await Promise.all([
 		sql<Record<string, number | null>[]>`
@@ -209,7 +228,9 @@ export async function readSeries(runId: string, firstT: number, from: number, to
 		width,
 		t: [],
 		frames: [],
-		columns: Object.fromEntries(seriesColumns.map((c) => [c, { min: [], max: [], mean: [] }])) as unknown as Record<SeriesColumn, SeriesBucketStats>,
+		columns: Object.fromEntries(
+			seriesColumns.map((c) => [c, { min: [], max: [], mean: [] }])
+		) as unknown as Record<SeriesColumn, SeriesBucketStats>,
 		zones: {}
 	};
 	rows.forEach((row, i) => {
@@ -224,7 +245,11 @@ export async function readSeries(runId: string, firstT: number, from: number, to
 		}
 	});
 	for (const z of zoneRows) {
-		const s = (out.zones[z.k] ??= { min: rows.map(() => null), max: rows.map(() => null), mean: rows.map(() => null) });
+		const s = (out.zones[z.k] ??= {
+			min: rows.map(() => null),
+			max: rows.map(() => null),
+			mean: rows.map(() => null)
+		});
 		const i = index.get(Number(z.b));
 		if (i === undefined) continue;
 		s.min[i] = z.lo;

@@ -81,7 +81,9 @@ export class PostgresIngestStore implements IngestStore {
 		let row: RunRow | undefined;
 		let resumed = false;
 		if (req.clientRunId !== null) {
-			[row] = await this.#sql<RunRow[]>`select * from runs where rig_id = ${req.rig.rigId} and client_run_id = ${req.clientRunId}`;
+			[row] = await this.#sql<
+				RunRow[]
+			>`select * from runs where rig_id = ${req.rig.rigId} and client_run_id = ${req.clientRunId}`;
 			resumed = row !== undefined;
 		}
 		if (!row) {
@@ -95,11 +97,14 @@ export class PostgresIngestStore implements IngestStore {
 			row = inserted[0];
 			if (!row) {
 				// opened concurrently by another connection of the same rig
-				[row] = await this.#sql<RunRow[]>`select * from runs where rig_id = ${req.rig.rigId} and client_run_id = ${req.clientRunId}`;
+				[row] = await this.#sql<
+					RunRow[]
+				>`select * from runs where rig_id = ${req.rig.rigId} and client_run_id = ${req.clientRunId}`;
 				resumed = true;
 			}
 		}
-		if (row.status === 'imported') return { ok: false, reason: 'this run was imported and cannot be streamed to' };
+		if (row.status === 'imported')
+			return { ok: false, reason: 'this run was imported and cannot be streamed to' };
 		this.#runs.set(row.id, {
 			stateFields: row.state_fields,
 			coords: row.coords,
@@ -124,10 +129,19 @@ export class PostgresIngestStore implements IngestStore {
 		let ctx = this.#runs.get(runId);
 		if (!ctx) {
 			const [row] = await this.#sql<RunRow[]>`select * from runs where id = ${runId}`;
-			ctx = { stateFields: row.state_fields, coords: row.coords, settings: row.metric_settings ?? defaultMetricSettings, keyId: null, settingsReadAt: Date.now(), committedNext: null };
+			ctx = {
+				stateFields: row.state_fields,
+				coords: row.coords,
+				settings: row.metric_settings ?? defaultMetricSettings,
+				keyId: null,
+				settingsReadAt: Date.now(),
+				committedNext: null
+			};
 			this.#runs.set(runId, ctx);
 		} else if (Date.now() - ctx.settingsReadAt > SETTINGS_TTL_MS) {
-			const [row] = await this.#sql<Pick<RunRow, 'metric_settings'>[]>`select metric_settings from runs where id = ${runId}`;
+			const [row] = await this.#sql<
+				Pick<RunRow, 'metric_settings'>[]
+			>`select metric_settings from runs where id = ${runId}`;
 			ctx.settings = row?.metric_settings ?? defaultMetricSettings;
 			ctx.settingsReadAt = Date.now();
 		}
@@ -140,11 +154,18 @@ export class PostgresIngestStore implements IngestStore {
 		if (ctx && !this.#prepared.has(frame)) this.#prepared.set(frame, frameRow(runId, frame, ctx));
 	}
 
-	async commitFrames(runId: string, frames: FrameToStore[], quarantined: QuarantinedToStore[]): Promise<void> {
+	async commitFrames(
+		runId: string,
+		frames: FrameToStore[],
+		quarantined: QuarantinedToStore[]
+	): Promise<void> {
 		if (frames.length === 0 && quarantined.length === 0) return;
 		const ctx = await this.#context(runId);
 		const rows = frames.map((f) => this.#prepared.get(f) ?? frameRow(runId, f, ctx));
-		await ensurePartitionsFor(this.#sql, frames.map((f) => f.t));
+		await ensurePartitionsFor(
+			this.#sql,
+			frames.map((f) => f.t)
+		);
 		let maxSeq = -1;
 		for (const f of frames) maxSeq = Math.max(maxSeq, f.seq);
 		for (const q of quarantined) maxSeq = Math.max(maxSeq, q.seq);
@@ -158,13 +179,21 @@ export class PostgresIngestStore implements IngestStore {
 					await copyFrames(tx, rows);
 					stored = rows.length;
 				} else if (rows.length) {
-					const values = rows.map((r) => ({ ...r, zones: r.zones === null ? null : tx.json(r.zones as postgres.JSONValue) }));
+					const values = rows.map((r) => ({
+						...r,
+						zones: r.zones === null ? null : tx.json(r.zones as postgres.JSONValue)
+					}));
 					const res = await tx`insert into frames ${tx(values)} on conflict do nothing`;
 					stored = res.count;
 				}
 				if (quarantined.length) {
 					await tx`insert into quarantine ${tx(
-						quarantined.map((q) => ({ run_id: runId, seq: q.seq, reason: q.reason, raw: Buffer.from(q.raw.buffer, q.raw.byteOffset, q.raw.byteLength) }))
+						quarantined.map((q) => ({
+							run_id: runId,
+							seq: q.seq,
+							reason: q.reason,
+							raw: Buffer.from(q.raw.buffer, q.raw.byteOffset, q.raw.byteLength)
+						}))
 					)}`;
 				}
 				// the run's counters and the key's frame count in one round trip
@@ -187,7 +216,8 @@ export class PostgresIngestStore implements IngestStore {
 		// none of these seqs can be stored yet: above what this store committed for the run (the normal case),
 		// or, when it does not know, when the database says so; insert-or-skip otherwise.
 		const seqs = frames.map((f) => f.seq);
-		let fresh = seqs.length === 0 || (ctx.committedNext !== null && Math.min(...seqs) >= ctx.committedNext);
+		let fresh =
+			seqs.length === 0 || (ctx.committedNext !== null && Math.min(...seqs) >= ctx.committedNext);
 		if (!fresh) {
 			const [dup] = await this.#sql<{ n: number }[]>`
 				select count(*)::int as n from frames where run_id = ${runId} and seq = any(${seqs}::bigint[])`;
@@ -204,15 +234,18 @@ export class PostgresIngestStore implements IngestStore {
 
 	async setRunState(runId: string, state: IngestRunState): Promise<void> {
 		if (state === 'live') {
-			await this.#sql`update runs set status = 'live', ended_at = null, last_seen_at = now() where id = ${runId}`;
+			await this
+				.#sql`update runs set status = 'live', ended_at = null, last_seen_at = now() where id = ${runId}`;
 		} else {
-			await this.#sql`update runs set status = ${state}, ended_at = coalesce(ended_at, now()) where id = ${runId} and status <> 'imported'`;
+			await this
+				.#sql`update runs set status = ${state}, ended_at = coalesce(ended_at, now()) where id = ${runId} and status <> 'imported'`;
 			if (state === 'ended') this.#runs.delete(runId);
 		}
 	}
 
 	async touchKey(keyId: string, address: string | null): Promise<void> {
-		await this.#sql`update feed_keys set last_used_at = now(), last_used_ip = coalesce(${address ?? null}, last_used_ip) where id = ${keyId}`;
+		await this
+			.#sql`update feed_keys set last_used_at = now(), last_used_ip = coalesce(${address ?? null}, last_used_ip) where id = ${keyId}`;
 	}
 }
 
@@ -246,13 +279,18 @@ async function copyFrames(tx: postgres.TransactionSql, rows: FrameRow[]): Promis
 			{ kind: 'jsonb', value: r.zones === null ? null : JSON.stringify(r.zones) }
 		]);
 	}
-	const stream = await tx.unsafe(`copy frames (${frameCopyColumns}) from stdin (format binary)`).writable();
+	const stream = await tx
+		.unsafe(`copy frames (${frameCopyColumns}) from stdin (format binary)`)
+		.writable();
 	// A COPY the server rejects never settles in postgres.js: give up after a while, so the transaction rolls
 	// back and the rig's connection closes (1011) and resumes, instead of the run hanging.
 	let timer: ReturnType<typeof setTimeout> | undefined;
 	try {
 		await new Promise<void>((resolve, reject) => {
-			timer = setTimeout(() => reject(new Error('COPY into frames did not complete')), copyDeadlineMs);
+			timer = setTimeout(
+				() => reject(new Error('COPY into frames did not complete')),
+				copyDeadlineMs
+			);
 			stream.on('error', reject);
 			stream.end(w.finish(), () => resolve());
 		});
@@ -262,7 +300,11 @@ async function copyFrames(tx: postgres.TransactionSql, rows: FrameRow[]): Promis
 }
 
 function frameRow(runId: string, f: FrameToStore, ctx: RunContext): FrameRow {
-	const m = frameMetrics(f.frame, { stateFields: ctx.stateFields, settings: ctx.settings, coords: ctx.coords });
+	const m = frameMetrics(f.frame, {
+		stateFields: ctx.stateFields,
+		settings: ctx.settings,
+		coords: ctx.coords
+	});
 	noteFrameMetrics(f.frame, m);
 	return {
 		run_id: runId,

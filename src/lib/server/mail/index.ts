@@ -25,7 +25,12 @@ export async function startMailCatcher(): Promise<void> {
 		const c = new MailCatcher();
 		const port = await c.listen(Number(process.env.MAIL_CATCHER_PORT ?? 0));
 		catcher = c;
-		transport = nodemailer.createTransport({ host: '127.0.0.1', port, secure: false, ignoreTLS: true });
+		transport = nodemailer.createTransport({
+			host: '127.0.0.1',
+			port,
+			secure: false,
+			ignoreTLS: true
+		});
 		logger.info({ port }, 'mail catcher listening on loopback');
 	})();
 	await catcherStarting;
@@ -52,16 +57,27 @@ export async function sendMail(mail: OutgoingMail): Promise<void> {
 	try {
 		const t = await getTransport();
 		await t.sendMail({ from, to: mail.to, subject: mail.subject, text: mail.text });
-		await db().insert(schema.mailOutbox).values({ to: mail.to, subject: mail.subject, kind: mail.kind, status: 'sent' });
+		await db()
+			.insert(schema.mailOutbox)
+			.values({ to: mail.to, subject: mail.subject, kind: mail.kind, status: 'sent' });
 	} catch (err) {
 		const message = err instanceof Error ? err.message : String(err);
 		logger.error({ err: message, to: mail.to, kind: mail.kind }, 'mail not sent');
-		await db().insert(schema.mailOutbox).values({ to: mail.to, subject: mail.subject, kind: mail.kind, status: 'failed', error: message });
+		await db()
+			.insert(schema.mailOutbox)
+			.values({
+				to: mail.to,
+				subject: mail.subject,
+				kind: mail.kind,
+				status: 'failed',
+				error: message
+			});
 		throw err;
 	}
 }
 
 export function publicUrl(path: string): string {
-	const base = process.env.ORIGIN ?? process.env.PUBLIC_URL ?? `http://localhost:${process.env.PORT ?? 3000}`;
+	const base =
+		process.env.ORIGIN ?? process.env.PUBLIC_URL ?? `http://localhost:${process.env.PORT ?? 3000}`;
 	return new URL(path, base).toString();
 }

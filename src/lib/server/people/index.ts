@@ -42,7 +42,13 @@ export async function createUser(
 	const passwordHash = input.password ? await hashPassword(input.password) : null;
 	const [row] = await db()
 		.insert(u)
-		.values({ id, email: input.email.toLowerCase(), name: input.name ?? input.email.split('@')[0], role: input.role, passwordHash })
+		.values({
+			id,
+			email: input.email.toLowerCase(),
+			name: input.name ?? input.email.split('@')[0],
+			role: input.role,
+			passwordHash
+		})
 		.returning();
 	await audit(actor, 'person.create', row.email, { role: input.role });
 	return row;
@@ -50,7 +56,15 @@ export async function createUser(
 
 export async function listPeople() {
 	return db()
-		.select({ id: u.id, email: u.email, name: u.name, role: u.role, active: u.active, createdAt: u.createdAt, lastSignInAt: u.lastSignInAt })
+		.select({
+			id: u.id,
+			email: u.email,
+			name: u.name,
+			role: u.role,
+			active: u.active,
+			createdAt: u.createdAt,
+			lastSignInAt: u.lastSignInAt
+		})
 		.from(u)
 		.orderBy(asc(u.email));
 }
@@ -67,7 +81,11 @@ export async function setRole(actor: Actor, userId: string, role: Role) {
 	const target = await getUser(userId);
 	if (!target) throw new PeopleError('not_found', 'No such person');
 	if (target.role === 'admin' && role !== 'admin' && target.active && (await activeAdmins()) <= 1) {
-		throw new PeopleError('invalid', 'This is the last active admin; make someone else admin first', 'role');
+		throw new PeopleError(
+			'invalid',
+			'This is the last active admin; make someone else admin first',
+			'role'
+		);
 	}
 	await db().update(u).set({ role }).where(eq(u.id, userId));
 	await audit(actor, 'person.set_role', target.email, { from: target.role, to: role });
@@ -82,13 +100,19 @@ export async function setActive(actor: Actor, userId: string, active: boolean) {
 	await db().update(u).set({ active }).where(eq(u.id, userId));
 	if (!active) {
 		await invalidateUserSessions(userId);
-		await db().update(schema.apiTokens).set({ revokedAt: new Date() }).where(and(eq(schema.apiTokens.userId, userId), isNull(schema.apiTokens.revokedAt)));
+		await db()
+			.update(schema.apiTokens)
+			.set({ revokedAt: new Date() })
+			.where(and(eq(schema.apiTokens.userId, userId), isNull(schema.apiTokens.revokedAt)));
 	}
 	await audit(actor, active ? 'person.reactivate' : 'person.deactivate', target.email);
 }
 
 export async function setPassword(userId: string, password: string) {
-	await db().update(u).set({ passwordHash: await hashPassword(password) }).where(eq(u.id, userId));
+	await db()
+		.update(u)
+		.set({ passwordHash: await hashPassword(password) })
+		.where(eq(u.id, userId));
 }
 
 // ---- invites ----
@@ -103,7 +127,14 @@ export async function createInvite(actor: Actor, email: string, role: Role) {
 	const expiresAt = new Date(Date.now() + inviteLifetimeMs);
 	await db()
 		.insert(schema.invites)
-		.values({ id, email: email.toLowerCase(), role, tokenHash: hashSecret(token), invitedBy: actor.id, expiresAt });
+		.values({
+			id,
+			email: email.toLowerCase(),
+			role,
+			tokenHash: hashSecret(token),
+			invitedBy: actor.id,
+			expiresAt
+		});
 	await audit(actor, 'invite.create', email, { role });
 	return { id, token, expiresAt };
 }
@@ -113,40 +144,90 @@ export async function findOpenInvite(token: string) {
 	const [row] = await db()
 		.select()
 		.from(i)
-		.where(and(eq(i.tokenHash, hashSecret(token)), isNull(i.usedAt), isNull(i.revokedAt), gt(i.expiresAt, new Date())));
+		.where(
+			and(
+				eq(i.tokenHash, hashSecret(token)),
+				isNull(i.usedAt),
+				isNull(i.revokedAt),
+				gt(i.expiresAt, new Date())
+			)
+		);
 	return row ?? null;
 }
 
 export async function listInvites() {
 	const i = schema.invites;
-	return db().select({ id: i.id, email: i.email, role: i.role, createdAt: i.createdAt, expiresAt: i.expiresAt, usedAt: i.usedAt, revokedAt: i.revokedAt }).from(i).orderBy(desc(i.createdAt)).limit(100);
+	return db()
+		.select({
+			id: i.id,
+			email: i.email,
+			role: i.role,
+			createdAt: i.createdAt,
+			expiresAt: i.expiresAt,
+			usedAt: i.usedAt,
+			revokedAt: i.revokedAt
+		})
+		.from(i)
+		.orderBy(desc(i.createdAt))
+		.limit(100);
 }
 
 export async function revokeInvite(actor: Actor, id: string) {
 	const i = schema.invites;
-	const [row] = await db().update(i).set({ revokedAt: new Date() }).where(and(eq(i.id, id), isNull(i.usedAt))).returning();
+	const [row] = await db()
+		.update(i)
+		.set({ revokedAt: new Date() })
+		.where(and(eq(i.id, id), isNull(i.usedAt)))
+		.returning();
 	if (!row) throw new PeopleError('not_found', 'No open invite with that id');
 	await audit(actor, 'invite.revoke', row.email);
 }
 
 /** Single use: the invite is marked used in the same transaction that creates the account. */
-export async function acceptInvite(token: string, name: string, password: string, ip: string | null) {
+export async function acceptInvite(
+	token: string,
+	name: string,
+	password: string,
+	ip: string | null
+) {
 	const passwordHash = await hashPassword(password);
 	const i = schema.invites;
 	return db().transaction(async (tx) => {
 		const [invite] = await tx
 			.update(i)
 			.set({ usedAt: new Date() })
-			.where(and(eq(i.tokenHash, hashSecret(token)), isNull(i.usedAt), isNull(i.revokedAt), gt(i.expiresAt, new Date())))
+			.where(
+				and(
+					eq(i.tokenHash, hashSecret(token)),
+					isNull(i.usedAt),
+					isNull(i.revokedAt),
+					gt(i.expiresAt, new Date())
+				)
+			)
 			.returning();
-		if (!invite) throw new PeopleError('invalid', 'This invite link is not valid: it was used, revoked or has expired');
-		const [taken] = await tx.select({ id: u.id }).from(u).where(sql`lower(${u.email}) = ${invite.email}`);
+		if (!invite)
+			throw new PeopleError(
+				'invalid',
+				'This invite link is not valid: it was used, revoked or has expired'
+			);
+		const [taken] = await tx
+			.select({ id: u.id })
+			.from(u)
+			.where(sql`lower(${u.email}) = ${invite.email}`);
 		if (taken) throw new PeopleError('conflict', `${invite.email} already has an account`);
 		const [user] = await tx
 			.insert(u)
 			.values({ id: newId(), email: invite.email, name, role: invite.role, passwordHash })
 			.returning();
-		await tx.insert(schema.auditLog).values({ actorId: user.id, actorLabel: user.email, action: 'invite.accept', target: user.email, ip });
+		await tx
+			.insert(schema.auditLog)
+			.values({
+				actorId: user.id,
+				actorLabel: user.email,
+				action: 'invite.accept',
+				target: user.email,
+				ip
+			});
 		return user;
 	});
 }
@@ -161,7 +242,11 @@ export async function createPasswordReset(email: string) {
 	const token = newSecret('skr');
 	await db()
 		.insert(schema.passwordResets)
-		.values({ tokenHash: hashSecret(token), userId: user.id, expiresAt: new Date(Date.now() + resetLifetimeMs) });
+		.values({
+			tokenHash: hashSecret(token),
+			userId: user.id,
+			expiresAt: new Date(Date.now() + resetLifetimeMs)
+		});
 	return { user, token };
 }
 
@@ -183,9 +268,22 @@ export async function completePasswordReset(token: string, password: string, ip:
 			.set({ usedAt: new Date() })
 			.where(and(eq(r.tokenHash, hashSecret(token)), isNull(r.usedAt), gt(r.expiresAt, new Date())))
 			.returning();
-		if (!reset) throw new PeopleError('invalid', 'This reset link is not valid: it was used or has expired');
-		const [user] = await tx.update(u).set({ passwordHash }).where(eq(u.id, reset.userId)).returning();
-		await tx.insert(schema.auditLog).values({ actorId: user.id, actorLabel: user.email, action: 'password.reset', target: user.email, ip });
+		if (!reset)
+			throw new PeopleError('invalid', 'This reset link is not valid: it was used or has expired');
+		const [user] = await tx
+			.update(u)
+			.set({ passwordHash })
+			.where(eq(u.id, reset.userId))
+			.returning();
+		await tx
+			.insert(schema.auditLog)
+			.values({
+				actorId: user.id,
+				actorLabel: user.email,
+				action: 'password.reset',
+				target: user.email,
+				ip
+			});
 		return user.id;
 	});
 	await invalidateUserSessions(userId);
@@ -197,7 +295,9 @@ export async function completePasswordReset(token: string, password: string, ip:
 export async function createApiToken(actor: Actor, userId: string, name: string) {
 	const token = newSecret('skt');
 	const id = newId();
-	await db().insert(schema.apiTokens).values({ id, userId, name, prefix: secretPrefix(token), tokenHash: hashSecret(token) });
+	await db()
+		.insert(schema.apiTokens)
+		.values({ id, userId, name, prefix: secretPrefix(token), tokenHash: hashSecret(token) });
 	await audit(actor, 'token.create', name, { id });
 	return { id, token };
 }
@@ -205,7 +305,14 @@ export async function createApiToken(actor: Actor, userId: string, name: string)
 export async function listApiTokens(userId: string) {
 	const t = schema.apiTokens;
 	return db()
-		.select({ id: t.id, name: t.name, prefix: t.prefix, createdAt: t.createdAt, lastUsedAt: t.lastUsedAt, revokedAt: t.revokedAt })
+		.select({
+			id: t.id,
+			name: t.name,
+			prefix: t.prefix,
+			createdAt: t.createdAt,
+			lastUsedAt: t.lastUsedAt,
+			revokedAt: t.revokedAt
+		})
 		.from(t)
 		.where(eq(t.userId, userId))
 		.orderBy(desc(t.createdAt));
@@ -225,7 +332,14 @@ export async function revokeApiToken(actor: Actor, userId: string, id: string) {
 export async function userForApiToken(token: string) {
 	const t = schema.apiTokens;
 	const [row] = await db()
-		.select({ tokenId: t.id, id: u.id, email: u.email, name: u.name, role: u.role, active: u.active })
+		.select({
+			tokenId: t.id,
+			id: u.id,
+			email: u.email,
+			name: u.name,
+			role: u.role,
+			active: u.active
+		})
 		.from(t)
 		.innerJoin(u, eq(u.id, t.userId))
 		.where(and(eq(t.tokenHash, hashSecret(token)), isNull(t.revokedAt)));
@@ -239,7 +353,13 @@ export async function userForApiToken(token: string) {
 export async function listSessions(userId: string) {
 	const s = schema.sessions;
 	return db()
-		.select({ id: s.id, createdAt: s.createdAt, expiresAt: s.expiresAt, ip: s.ip, userAgent: s.userAgent })
+		.select({
+			id: s.id,
+			createdAt: s.createdAt,
+			expiresAt: s.expiresAt,
+			ip: s.ip,
+			userAgent: s.userAgent
+		})
 		.from(s)
 		.where(and(eq(s.userId, userId), gt(s.expiresAt, new Date())))
 		.orderBy(desc(s.createdAt));
@@ -247,7 +367,10 @@ export async function listSessions(userId: string) {
 
 export async function revokeSession(actor: Actor, userId: string, sessionId: string) {
 	const s = schema.sessions;
-	const [row] = await db().delete(s).where(and(eq(s.id, sessionId), eq(s.userId, userId))).returning({ id: s.id });
+	const [row] = await db()
+		.delete(s)
+		.where(and(eq(s.id, sessionId), eq(s.userId, userId)))
+		.returning({ id: s.id });
 	if (!row) throw new PeopleError('not_found', 'No such session');
 	await audit(actor, 'session.revoke', null);
 }

@@ -42,9 +42,11 @@ export async function createPin(runId: string, userId: string, pin: NewPin): Pro
 		const [run] = await tx<{ first_t: number | null; last_t: number | null }[]>`
 			select first_t, last_t from runs where id = ${runId} for update`;
 		if (!run) throw new PinError('_', 'No such run');
-		if (run.first_t === null || run.last_t === null) throw new PinError('t', 'This run has no frames to pin yet');
+		if (run.first_t === null || run.last_t === null)
+			throw new PinError('t', 'This run has no frames to pin yet');
 		const duration = run.last_t - run.first_t;
-		if (pin.t > duration + 1e-6) throw new PinError('t', `t must be within the run (0 to ${duration.toFixed(3)} s)`);
+		if (pin.t > duration + 1e-6)
+			throw new PinError('t', `t must be within the run (0 to ${duration.toFixed(3)} s)`);
 		const [frame] = await tx<{ seq: number }[]>`
 			select seq::float8 as seq from frames where run_id = ${runId} and t <= ${run.first_t + pin.t + 1e-9}::float8
 			order by t desc limit 1`;
@@ -68,7 +70,10 @@ export async function listRunPins(runId: string): Promise<PinRow[]> {
 		where p.run_id = ${runId} order by p.t, p.created_at`;
 }
 
-export async function listAllPins(limit: number, offset: number): Promise<{ total: number; pins: PinRow[] }> {
+export async function listAllPins(
+	limit: number,
+	offset: number
+): Promise<{ total: number; pins: PinRow[] }> {
 	const sql = sqlClient();
 	const rows = await sql<(PinRow & { total: number })[]>`
 		select ${sql.unsafe(pinColumns)}, count(*) over ()::int as total

@@ -3,12 +3,19 @@ import { formError } from '$server/forms';
 import { RigsError } from '.';
 
 /** endpoint() from $server/api, also turning RigsError into the one error shape. */
-export function rigsEndpoint<E>(fn: (event: E) => Promise<Response>): (event: E) => Promise<Response> {
+export function rigsEndpoint<E>(
+	fn: (event: E) => Promise<Response>
+): (event: E) => Promise<Response> {
 	return endpoint(async (event: E) => {
 		try {
 			return await fn(event);
 		} catch (err) {
-			if (err instanceof RigsError) throw new ApiError(err.code, err.message, err.field ? { [err.field]: err.message } : undefined);
+			if (err instanceof RigsError)
+				throw new ApiError(
+					err.code,
+					err.message,
+					err.field ? { [err.field]: err.message } : undefined
+				);
 			throw err;
 		}
 	});

@@ -31,10 +31,14 @@ type Tx = Parameters<Parameters<ReturnType<typeof db>['transaction']>[0]>[0];
 
 export type KeyStatus = 'active' | 'expiring' | 'expired' | 'revoked';
 
-export function keyStatus(key: { revokedAt: Date | null; expiresAt: Date | null }, now = new Date()): KeyStatus {
+export function keyStatus(
+	key: { revokedAt: Date | null; expiresAt: Date | null },
+	now = new Date()
+): KeyStatus {
 	if (key.revokedAt) return 'revoked';
 	if (key.expiresAt && key.expiresAt.getTime() <= now.getTime()) return 'expired';
-	if (key.expiresAt && key.expiresAt.getTime() - now.getTime() <= expiringWindowMs) return 'expiring';
+	if (key.expiresAt && key.expiresAt.getTime() - now.getTime() <= expiringWindowMs)
+		return 'expiring';
 	return 'active';
 }
 
@@ -49,8 +53,23 @@ function isUniqueViolation(err: unknown): boolean {
 	return false;
 }
 
-async function auditIn(tx: Tx, actor: Actor, action: string, target: string, details: Record<string, unknown> | null = null) {
-	await tx.insert(schema.auditLog).values({ actorId: actor.id, actorLabel: actor.label, action, target, ip: actor.ip ?? null, details });
+async function auditIn(
+	tx: Tx,
+	actor: Actor,
+	action: string,
+	target: string,
+	details: Record<string, unknown> | null = null
+) {
+	await tx
+		.insert(schema.auditLog)
+		.values({
+			actorId: actor.id,
+			actorLabel: actor.label,
+			action,
+			target,
+			ip: actor.ip ?? null,
+			details
+		});
 }
 
 async function notifyStopped(tx: Tx, keyIds: string[]) {
@@ -76,13 +95,21 @@ const rigColumns = {
 
 export type RigView = Awaited<ReturnType<typeof listRigs>>[number];
 
-function withDates<T extends { lastActivityAt: string | Date | null }>(row: T): Omit<T, 'lastActivityAt'> & { lastActivityAt: Date | null } {
-	return { ...row, lastActivityAt: row.lastActivityAt === null ? null : new Date(row.lastActivityAt) };
+function withDates<T extends { lastActivityAt: string | Date | null }>(
+	row: T
+): Omit<T, 'lastActivityAt'> & { lastActivityAt: Date | null } {
+	return {
+		...row,
+		lastActivityAt: row.lastActivityAt === null ? null : new Date(row.lastActivityAt)
+	};
 }
 
 /** Every rig with its count of working keys and its last activity (a key used or a run seen). */
 export async function listRigs() {
-	const rows = await db().select(rigColumns).from(r).orderBy(asc(sql`lower(${r.name})`));
+	const rows = await db()
+		.select(rigColumns)
+		.from(r)
+		.orderBy(asc(sql`lower(${r.name})`));
 	return rows.map(withDates);
 }
 
@@ -165,7 +192,13 @@ export async function setRigArchived(actor: Actor, id: string, archived: boolean
 			const working = await tx
 				.select({ id: k.id })
 				.from(k)
-				.where(and(eq(k.rigId, id), isNull(k.revokedAt), or(isNull(k.expiresAt), gt(k.expiresAt, new Date()))));
+				.where(
+					and(
+						eq(k.rigId, id),
+						isNull(k.revokedAt),
+						or(isNull(k.expiresAt), gt(k.expiresAt, new Date()))
+					)
+				);
 			await notifyStopped(
 				tx,
 				working.map((w) => w.id)
@@ -176,7 +209,11 @@ export async function setRigArchived(actor: Actor, id: string, archived: boolean
 }
 
 /** The API's PATCH: any of name, description, archived. */
-export async function updateRig(actor: Actor, id: string, patch: { name?: string; description?: string; archived?: boolean }) {
+export async function updateRig(
+	actor: Actor,
+	id: string,
+	patch: { name?: string; description?: string; archived?: boolean }
+) {
 	await requireRig(id);
 	if (patch.name !== undefined) await renameRig(actor, id, patch.name);
 	if (patch.description !== undefined) await describeRig(actor, id, patch.description);
@@ -225,7 +262,9 @@ export async function listAllFeedKeys(rigName?: string) {
 		.select({ ...keyColumns, rigName: r.name, rigArchivedAt: r.archivedAt })
 		.from(k)
 		.innerJoin(r, eq(r.id, k.rigId))
-		.where(rigName === undefined ? undefined : sql`lower(${r.name}) = ${rigName.trim().toLowerCase()}`)
+		.where(
+			rigName === undefined ? undefined : sql`lower(${r.name}) = ${rigName.trim().toLowerCase()}`
+		)
 		.orderBy(asc(sql`lower(${r.name})`), desc(k.createdAt));
 	const now = new Date();
 	return rows.map((row) => view(row, now));
@@ -246,30 +285,62 @@ export async function findFeedKeysByPrefix(prefix: string): Promise<FeedKeyView[
  * The secret is 192 random bits, so the stored HMAC-SHA-256 (keyed by the server pepper) cannot be reversed by
  * guessing, and a rig connection costs one fast hash and one index lookup; a slow password hash would buy nothing.
  */
-async function insertKey(tx: Tx, actor: Actor, rigId: string, label: string, expiresAt: Date | null) {
+async function insertKey(
+	tx: Tx,
+	actor: Actor,
+	rigId: string,
+	label: string,
+	expiresAt: Date | null
+) {
 	const secret = newSecret('skf');
 	const [row] = await tx
 		.insert(k)
-		.values({ rigId, label, expiresAt, prefix: secretPrefix(secret), keyHash: hashSecret(secret), createdBy: actor.id })
+		.values({
+			rigId,
+			label,
+			expiresAt,
+			prefix: secretPrefix(secret),
+			keyHash: hashSecret(secret),
+			createdBy: actor.id
+		})
 		.returning(keyColumns);
 	return { key: view(row), secret };
 }
 
 /** Makes a key; the secret is returned here and never again. */
-export async function createFeedKey(actor: Actor, rigId: string, input: { label?: string; expiresAt?: Date | null }) {
+export async function createFeedKey(
+	actor: Actor,
+	rigId: string,
+	input: { label?: string; expiresAt?: Date | null }
+) {
 	const rig = await requireRig(rigId);
-	if (rig.archivedAt) throw new RigsError('conflict', `Rig "${rig.name}" is archived; unarchive it before making keys`);
-	if (input.expiresAt && input.expiresAt.getTime() <= Date.now()) throw new RigsError('invalid', 'Expiry must be in the future', 'expiresAt');
+	if (rig.archivedAt)
+		throw new RigsError(
+			'conflict',
+			`Rig "${rig.name}" is archived; unarchive it before making keys`
+		);
+	if (input.expiresAt && input.expiresAt.getTime() <= Date.now())
+		throw new RigsError('invalid', 'Expiry must be in the future', 'expiresAt');
 	return db().transaction(async (tx) => {
 		const made = await insertKey(tx, actor, rig.id, input.label ?? '', input.expiresAt ?? null);
-		await auditIn(tx, actor, 'feed_key.create', rig.name, { keyId: made.key.id, prefix: made.key.prefix, label: made.key.label, expiresAt: made.key.expiresAt });
+		await auditIn(tx, actor, 'feed_key.create', rig.name, {
+			keyId: made.key.id,
+			prefix: made.key.prefix,
+			label: made.key.label,
+			expiresAt: made.key.expiresAt
+		});
 		return made;
 	});
 }
 
 async function requireKey(tx: Tx, id: string) {
 	const [row] = isUuid(id)
-		? await tx.select({ ...keyColumns, rigName: r.name, rigArchivedAt: r.archivedAt }).from(k).innerJoin(r, eq(r.id, k.rigId)).where(eq(k.id, id)).for('update', { of: k })
+		? await tx
+				.select({ ...keyColumns, rigName: r.name, rigArchivedAt: r.archivedAt })
+				.from(k)
+				.innerJoin(r, eq(r.id, k.rigId))
+				.where(eq(k.id, id))
+				.for('update', { of: k })
 		: [];
 	if (!row) throw new RigsError('not_found', 'No such feed key');
 	return row;
@@ -279,7 +350,12 @@ export async function labelFeedKey(actor: Actor, id: string, label: string): Pro
 	return db().transaction(async (tx) => {
 		const key = await requireKey(tx, id);
 		const [row] = await tx.update(k).set({ label }).where(eq(k.id, id)).returning(keyColumns);
-		await auditIn(tx, actor, 'feed_key.label', key.rigName, { keyId: id, prefix: key.prefix, from: key.label, to: label });
+		await auditIn(tx, actor, 'feed_key.label', key.rigName, {
+			keyId: id,
+			prefix: key.prefix,
+			from: key.label,
+			to: label
+		});
 		return view(row);
 	});
 }
@@ -289,7 +365,11 @@ export async function revokeFeedKey(actor: Actor, id: string): Promise<FeedKeyVi
 	return db().transaction(async (tx) => {
 		const key = await requireKey(tx, id);
 		if (key.revokedAt) throw new RigsError('conflict', 'This feed key is already revoked');
-		const [row] = await tx.update(k).set({ revokedAt: new Date() }).where(eq(k.id, id)).returning(keyColumns);
+		const [row] = await tx
+			.update(k)
+			.set({ revokedAt: new Date() })
+			.where(eq(k.id, id))
+			.returning(keyColumns);
 		await notifyStopped(tx, [id]);
 		await auditIn(tx, actor, 'feed_key.revoke', key.rigName, { keyId: id, prefix: key.prefix });
 		return view(row);
@@ -305,37 +385,63 @@ export async function rotateFeedKey(actor: Actor, id: string, graceMinutes: numb
 		const old = await requireKey(tx, id);
 		if (old.revokedAt) throw new RigsError('conflict', 'A revoked feed key cannot be rotated');
 		if (old.rotatedTo) throw new RigsError('conflict', 'This feed key was already rotated');
-		if (old.rigArchivedAt) throw new RigsError('conflict', `Rig "${old.rigName}" is archived; unarchive it before rotating keys`);
+		if (old.rigArchivedAt)
+			throw new RigsError(
+				'conflict',
+				`Rig "${old.rigName}" is archived; unarchive it before rotating keys`
+			);
 		const now = Date.now();
 		const graceEnd = new Date(now + graceMinutes * 60_000);
 		const oldEnd = old.expiresAt && old.expiresAt < graceEnd ? old.expiresAt : graceEnd;
 		const made = await insertKey(tx, actor, old.rigId, old.label, null);
-		const [previous] = await tx.update(k).set({ expiresAt: oldEnd, rotatedTo: made.key.id }).where(eq(k.id, id)).returning(keyColumns);
+		const [previous] = await tx
+			.update(k)
+			.set({ expiresAt: oldEnd, rotatedTo: made.key.id })
+			.where(eq(k.id, id))
+			.returning(keyColumns);
 		if (oldEnd.getTime() <= now) await notifyStopped(tx, [id]);
-		await auditIn(tx, actor, 'feed_key.rotate', old.rigName, { keyId: id, prefix: old.prefix, newKeyId: made.key.id, newPrefix: made.key.prefix, graceMinutes });
+		await auditIn(tx, actor, 'feed_key.rotate', old.rigName, {
+			keyId: id,
+			prefix: old.prefix,
+			newKeyId: made.key.id,
+			newPrefix: made.key.prefix,
+			graceMinutes
+		});
 		return { ...made, previous: view(previous) };
 	});
 }
 
-export type FeedKeyResolution = { ok: true; rigId: string; keyId: string } | { ok: false; reason: string };
+export type FeedKeyResolution =
+	{ ok: true; rigId: string; keyId: string } | { ok: false; reason: string };
 
 /** What the ingest side asks when a rig connects: does this secret open a feed, and for which rig? */
 export async function resolveFeedKey(secret: string): Promise<FeedKeyResolution> {
-	if (!secret.startsWith('skf_') || secret.length > 200) return { ok: false, reason: 'unknown feed key' };
+	if (!secret.startsWith('skf_') || secret.length > 200)
+		return { ok: false, reason: 'unknown feed key' };
 	const [row] = await db()
-		.select({ keyId: k.id, rigId: k.rigId, revokedAt: k.revokedAt, expiresAt: k.expiresAt, archivedAt: r.archivedAt })
+		.select({
+			keyId: k.id,
+			rigId: k.rigId,
+			revokedAt: k.revokedAt,
+			expiresAt: k.expiresAt,
+			archivedAt: r.archivedAt
+		})
 		.from(k)
 		.innerJoin(r, eq(r.id, k.rigId))
 		.where(eq(k.keyHash, hashSecret(secret)));
 	if (!row) return { ok: false, reason: 'unknown feed key' };
 	if (row.revokedAt) return { ok: false, reason: 'feed key revoked' };
-	if (row.expiresAt && row.expiresAt.getTime() <= Date.now()) return { ok: false, reason: 'feed key expired' };
+	if (row.expiresAt && row.expiresAt.getTime() <= Date.now())
+		return { ok: false, reason: 'feed key expired' };
 	if (row.archivedAt) return { ok: false, reason: 'rig archived' };
 	return { ok: true, rigId: row.rigId, keyId: row.keyId };
 }
 
 /** For the ingest side: a connection was accepted on this key, and/or frames arrived on it. */
-export async function recordFeedKeyUse(keyId: string, use: { ip?: string | null; frames?: number }) {
+export async function recordFeedKeyUse(
+	keyId: string,
+	use: { ip?: string | null; frames?: number }
+) {
 	await db()
 		.update(k)
 		.set({

@@ -8,7 +8,14 @@ export const load = (async () => {
 	return {
 		runs: runs.map((r) => {
 			const row = r as typeof r & Record<string, unknown>;
-			return quietTile({ id: String(row.id), name: String(row.name), rig: String(row.rig_name), state: 'live', last_t: row.last_t, frames: Number(row.frame_count) });
+			return quietTile({
+				id: String(row.id),
+				name: String(row.name),
+				rig: String(row.rig_name),
+				state: 'live',
+				last_t: row.last_t,
+				frames: Number(row.frame_count)
+			});
 		})
 	};
 }) satisfies PageServerLoad;

@@ -5,18 +5,36 @@ import { actorOf } from '$server/api';
 import { formError, parseForm } from '$server/forms';
 import { sendMail } from '$server/mail';
 import { inviteMail } from '$server/mail/templates';
-import { createInvite, listInvites, listPeople, PeopleError, revokeInvite, setActive, setRole } from '$server/people';
+import {
+	createInvite,
+	listInvites,
+	listPeople,
+	PeopleError,
+	revokeInvite,
+	setActive,
+	setRole
+} from '$server/people';
 import type { Actions, PageServerLoad } from './$types';
 
 export const load = (async ({ locals }) => {
 	const [people, invites] = await Promise.all([listPeople(), listInvites()]);
-	return { people, invites, canManage: can(locals.user?.role, 'people:manage'), me: locals.user!.id };
+	return {
+		people,
+		invites,
+		canManage: can(locals.user?.role, 'people:manage'),
+		me: locals.user!.id
+	};
 }) satisfies PageServerLoad;
 
 const idSchema = z.object({ id: z.string().regex(/^[A-Za-z0-9_-]{20}$/, 'Unknown person') });
 
 function domainFailure(err: unknown) {
-	if (err instanceof PeopleError) return formError(err.code === 'not_found' ? 404 : err.code === 'conflict' ? 409 : 400, err.message, err.field ?? '_');
+	if (err instanceof PeopleError)
+		return formError(
+			err.code === 'not_found' ? 404 : err.code === 'conflict' ? 409 : 400,
+			err.message,
+			err.field ?? '_'
+		);
 	throw err;
 }
 
@@ -28,7 +46,11 @@ export const actions = {
 		try {
 			const invite = await createInvite(actor, parsed.data.email, parsed.data.role);
 			const link = new URL(`/invite/${invite.token}`, url.origin).toString();
-			await sendMail({ to: parsed.data.email, kind: 'invite', ...inviteMail(link, parsed.data.role, locals.user!.name, invite.expiresAt) });
+			await sendMail({
+				to: parsed.data.email,
+				kind: 'invite',
+				...inviteMail(link, parsed.data.role, locals.user!.name, invite.expiresAt)
+			});
 			return { invited: parsed.data.email };
 		} catch (err) {
 			return domainFailure(err);
@@ -45,11 +67,21 @@ export const actions = {
 		}
 	},
 	active: async ({ request, locals, getClientAddress }) => {
-		const parsed = await parseForm(request, idSchema.and(z.object({ active: z.enum(['true', 'false'], { error: 'active must be true or false' }) })));
+		const parsed = await parseForm(
+			request,
+			idSchema.and(
+				z.object({ active: z.enum(['true', 'false'], { error: 'active must be true or false' }) })
+			)
+		);
 		if (!parsed.ok) return parsed.failure;
-		if (parsed.data.id === locals.user!.id && parsed.data.active === 'false') return formError(400, 'You cannot deactivate yourself');
+		if (parsed.data.id === locals.user!.id && parsed.data.active === 'false')
+			return formError(400, 'You cannot deactivate yourself');
 		try {
-			await setActive(actorOf(locals, getClientAddress()), parsed.data.id, parsed.data.active === 'true');
+			await setActive(
+				actorOf(locals, getClientAddress()),
+				parsed.data.id,
+				parsed.data.active === 'true'
+			);
 			return { updated: parsed.data.id };
 		} catch (err) {
 			return domainFailure(err);

@@ -59,10 +59,19 @@ export class RunsList {
 		const abort = (this.#abort = new AbortController());
 		this.loading = true;
 		try {
-			const res = await fetch(`/api/runs?${query}`, { signal: abort.signal, headers: { accept: 'application/json' } });
-			const body = (await res.json()) as { runs?: RunListRow[]; total?: number; error?: { message: string; details?: Record<string, string> } };
+			const res = await fetch(`/api/runs?${query}`, {
+				signal: abort.signal,
+				headers: { accept: 'application/json' }
+			});
+			const body = (await res.json()) as {
+				runs?: RunListRow[];
+				total?: number;
+				error?: { message: string; details?: Record<string, string> };
+			};
 			if (!res.ok) {
-				this.error = body.error?.details ? Object.values(body.error.details).join('; ') : (body.error?.message ?? `HTTP ${res.status}`);
+				this.error = body.error?.details
+					? Object.values(body.error.details).join('; ')
+					: (body.error?.message ?? `HTTP ${res.status}`);
 				this.rows = [];
 				this.total = 0;
 			} else {

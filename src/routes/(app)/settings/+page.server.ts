@@ -30,7 +30,11 @@ export const load = (async ({ locals, cookies }) => {
 	const [sessions, tokens] = await Promise.all([listSessions(user.id), listApiTokens(user.id)]);
 	return {
 		theme: cookies.get('skein_theme') === 'night' ? 'night' : 'paper',
-		sessions: sessions.map(({ id, ...rest }) => ({ ...rest, handle: handle(id), current: id === locals.session?.id })),
+		sessions: sessions.map(({ id, ...rest }) => ({
+			...rest,
+			handle: handle(id),
+			current: id === locals.session?.id
+		})),
 		tokens
 	};
 }) satisfies PageServerLoad;
@@ -43,9 +47,17 @@ export const actions = {
 		return { saved: 'profile' };
 	},
 	theme: async ({ request, cookies }) => {
-		const parsed = await parseForm(request, z.object({ theme: z.enum(themes, { error: 'Pick Paper or Night' }) }));
+		const parsed = await parseForm(
+			request,
+			z.object({ theme: z.enum(themes, { error: 'Pick Paper or Night' }) })
+		);
 		if (!parsed.ok) return parsed.failure;
-		cookies.set('skein_theme', parsed.data.theme, { path: '/', httpOnly: false, sameSite: 'lax', maxAge: 365 * 86400 });
+		cookies.set('skein_theme', parsed.data.theme, {
+			path: '/',
+			httpOnly: false,
+			sameSite: 'lax',
+			maxAge: 365 * 86400
+		});
 		return { saved: 'theme' };
 	},
 	password: async ({ request, locals, cookies, url, getClientAddress }) => {
@@ -59,14 +71,20 @@ export const actions = {
 		// a new password ends every other session; this browser gets a fresh one
 		await invalidateUserSessions(user.id);
 		const ip = getClientAddress();
-		const session = await createSession(user.id, { ip, userAgent: request.headers.get('user-agent') });
+		const session = await createSession(user.id, {
+			ip,
+			userAgent: request.headers.get('user-agent')
+		});
 		const c = sessionCookie(session.id, url.protocol === 'https:');
 		cookies.set(c.name, c.value, c.attributes);
 		await audit(actorOf(locals, ip), 'password.change', user.email);
 		return { saved: 'password' };
 	},
 	revokeSession: async ({ request, locals, getClientAddress }) => {
-		const parsed = await parseForm(request, z.object({ handle: z.string().regex(/^[0-9a-f]{20}$/, 'Unknown session') }));
+		const parsed = await parseForm(
+			request,
+			z.object({ handle: z.string().regex(/^[0-9a-f]{20}$/, 'Unknown session') })
+		);
 		if (!parsed.ok) return parsed.failure;
 		const mine = await listSessions(locals.user!.id);
 		const target = mine.find((s) => handle(s.id) === parsed.data.handle);
@@ -77,11 +95,18 @@ export const actions = {
 	createToken: async ({ request, locals, getClientAddress }) => {
 		const parsed = await parseForm(request, tokenNameSchema);
 		if (!parsed.ok) return parsed.failure;
-		const created = await createApiToken(actorOf(locals, getClientAddress()), locals.user!.id, parsed.data.name);
+		const created = await createApiToken(
+			actorOf(locals, getClientAddress()),
+			locals.user!.id,
+			parsed.data.name
+		);
 		return { newToken: created.token, tokenName: parsed.data.name };
 	},
 	revokeToken: async ({ request, locals, getClientAddress }) => {
-		const parsed = await parseForm(request, z.object({ id: z.string().regex(/^[A-Za-z0-9_-]{20}$/, 'Unknown token') }));
+		const parsed = await parseForm(
+			request,
+			z.object({ id: z.string().regex(/^[A-Za-z0-9_-]{20}$/, 'Unknown token') })
+		);
 		if (!parsed.ok) return parsed.failure;
 		try {
 			await revokeApiToken(actorOf(locals, getClientAddress()), locals.user!.id, parsed.data.id);

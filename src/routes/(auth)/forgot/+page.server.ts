@@ -15,9 +15,17 @@ export const actions = {
 		if (reset) {
 			const mail = resetMail(new URL(`/reset/${reset.token}`, url.origin).toString());
 			await sendMail({ to: reset.user.email, kind: 'password-reset', ...mail });
-			await audit({ id: reset.user.id, label: reset.user.email, ip }, 'password.reset_requested', reset.user.email);
+			await audit(
+				{ id: reset.user.id, label: reset.user.email, ip },
+				'password.reset_requested',
+				reset.user.email
+			);
 		} else {
-			await audit({ id: null, label: parsed.data.email, ip }, 'password.reset_requested_unknown', parsed.data.email);
+			await audit(
+				{ id: null, label: parsed.data.email, ip },
+				'password.reset_requested_unknown',
+				parsed.data.email
+			);
 		}
 		// the same answer either way, so the form does not reveal who has an account
 		return { sent: true, email: parsed.data.email };

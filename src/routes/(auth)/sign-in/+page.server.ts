@@ -3,7 +3,11 @@ import { signInSchema } from '$lib/validation/people';
 import { audit } from '$server/auth/audit';
 import { verifyPassword } from '$server/auth/password';
 import { createSession, sessionCookie } from '$server/auth/sessions';
-import { checkSignInThrottle, clearSignInFailures, recordSignInFailure } from '$server/auth/throttle';
+import {
+	checkSignInThrottle,
+	clearSignInFailures,
+	recordSignInFailure
+} from '$server/auth/throttle';
 import { db, schema } from '$server/db';
 import { formError, parseForm, safeNext } from '$server/forms';
 import { findUserByEmail } from '$server/people';
@@ -38,10 +42,16 @@ export const actions = {
 			return formError(400, 'That e-mail and password do not match an active account', '_', values);
 		}
 		await clearSignInFailures(email);
-		const session = await createSession(user.id, { ip, userAgent: request.headers.get('user-agent') });
+		const session = await createSession(user.id, {
+			ip,
+			userAgent: request.headers.get('user-agent')
+		});
 		const c = sessionCookie(session.id, url.protocol === 'https:');
 		cookies.set(c.name, c.value, c.attributes);
-		await db().update(schema.users).set({ lastSignInAt: new Date() }).where(eq(schema.users.id, user.id));
+		await db()
+			.update(schema.users)
+			.set({ lastSignInAt: new Date() })
+			.where(eq(schema.users.id, user.id));
 		await audit({ id: user.id, label: user.email, ip }, 'signin', user.email);
 		redirect(303, safeNext(url.searchParams.get('next')));
 	}

@@ -12,7 +12,11 @@ export const actions = {
 	default: async ({ locals, cookies, url, getClientAddress }) => {
 		if (locals.session && locals.user) {
 			await invalidateSession(locals.session.id);
-			await audit({ id: locals.user.id, label: locals.user.email, ip: getClientAddress() }, 'signout', locals.user.email);
+			await audit(
+				{ id: locals.user.id, label: locals.user.email, ip: getClientAddress() },
+				'signout',
+				locals.user.email
+			);
 		}
 		const c = blankSessionCookie(url.protocol === 'https:');
 		cookies.set(c.name, c.value, c.attributes);

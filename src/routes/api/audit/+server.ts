@@ -11,6 +11,7 @@ const query = z.object({
 
 export const GET: RequestHandler = endpoint(async ({ url }) => {
 	const parsed = query.safeParse(Object.fromEntries(url.searchParams));
-	if (!parsed.success) throw new ApiError('invalid', 'limit must be 1..1000 and before a positive id');
+	if (!parsed.success)
+		throw new ApiError('invalid', 'limit must be 1..1000 and before a positive id');
 	return json({ entries: await readAudit(parsed.data.limit, parsed.data.before) });
 });

@@ -6,4 +6,5 @@ import type { RequestHandler } from './$types';
  * Open live viewers and how far each one's outbox is behind (docs/live.md §4). A viewer never has more than
  * one frame pending, however slow it reads.
  */
-export const GET: RequestHandler = () => json(readLiveStats(), { headers: { 'cache-control': 'no-store' } });
+export const GET: RequestHandler = () =>
+	json(readLiveStats(), { headers: { 'cache-control': 'no-store' } });

@@ -13,6 +13,15 @@ export const POST: RequestHandler = endpoint(async ({ request, locals, url, getC
 	const input = await readJson(request, inviteSchema);
 	const invite = await createInvite(actorOf(locals, getClientAddress()), input.email, input.role);
 	const link = new URL(`/invite/${invite.token}`, url.origin).toString();
-	await sendMail({ to: input.email, kind: 'invite', ...inviteMail(link, input.role, locals.user!.name, invite.expiresAt) });
-	return json({ invite: { id: invite.id, email: input.email, role: input.role, expiresAt: invite.expiresAt } }, { status: 201 });
+	await sendMail({
+		to: input.email,
+		kind: 'invite',
+		...inviteMail(link, input.role, locals.user!.name, invite.expiresAt)
+	});
+	return json(
+		{
+			invite: { id: invite.id, email: input.email, role: input.role, expiresAt: invite.expiresAt }
+		},
+		{ status: 201 }
+	);
 });

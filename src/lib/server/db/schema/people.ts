@@ -95,7 +95,10 @@ export const signInFailures = pgTable(
 		ip: text('ip').notNull(),
 		at: ts('at').notNull().defaultNow()
 	},
-	(t) => [index('sign_in_failures_email_idx').on(t.email, t.at), index('sign_in_failures_ip_idx').on(t.ip, t.at)]
+	(t) => [
+		index('sign_in_failures_email_idx').on(t.email, t.at),
+		index('sign_in_failures_ip_idx').on(t.ip, t.at)
+	]
 );
 
 export const auditLog = pgTable(

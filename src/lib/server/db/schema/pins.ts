@@ -1,4 +1,13 @@
-import { bigint, doublePrecision, index, jsonb, pgTable, text, timestamp, uuid } from 'drizzle-orm/pg-core';
+import {
+	bigint,
+	doublePrecision,
+	index,
+	jsonb,
+	pgTable,
+	text,
+	timestamp,
+	uuid
+} from 'drizzle-orm/pg-core';
 import { users } from './people';
 import { runs } from './rigs';
 

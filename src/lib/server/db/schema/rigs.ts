@@ -73,7 +73,10 @@ export const runs = pgTable(
 		measurementFields: text('measurement_fields').array().notNull(),
 		coords: coordsEnum('coords').notNull().default('world'),
 		lengthUnit: text('length_unit').notNull().default('m'),
-		tags: text('tags').array().notNull().default(sql`'{}'::text[]`),
+		tags: text('tags')
+			.array()
+			.notNull()
+			.default(sql`'{}'::text[]`),
 		notes: text('notes').notNull().default(''),
 		status: runStatusEnum('status').notNull().default('live'),
 		startedAt: ts('started_at').notNull().defaultNow(),

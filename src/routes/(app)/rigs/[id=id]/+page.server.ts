@@ -1,7 +1,13 @@
 import { error } from '@sveltejs/kit';
 import { z } from 'zod';
 import { can } from '$lib/permissions';
-import { createKeySchema, labelKeySchema, rigDetailsSchema, rotateKeySchema, uuidField } from '$lib/validation/rigs';
+import {
+	createKeySchema,
+	labelKeySchema,
+	rigDetailsSchema,
+	rotateKeySchema,
+	uuidField
+} from '$lib/validation/rigs';
 import { actorOf } from '$server/api';
 import { formError, parseForm } from '$server/forms';
 import {
@@ -47,7 +53,10 @@ export const actions = {
 		return { done: 'Saved.' };
 	},
 	archive: async ({ request, params, locals, getClientAddress }) => {
-		const parsed = await parseForm(request, z.object({ archived: z.enum(['true', 'false'], { error: 'archived must be true or false' }) }));
+		const parsed = await parseForm(
+			request,
+			z.object({ archived: z.enum(['true', 'false'], { error: 'archived must be true or false' }) })
+		);
 		if (!parsed.ok) return parsed.failure;
 		const archived = parsed.data.archived === 'true';
 		try {
@@ -55,13 +64,19 @@ export const actions = {
 		} catch (err) {
 			return rigsFormFailure(err);
 		}
-		return { done: archived ? 'Rig archived: its feed keys no longer open a feed.' : 'Rig back in service.' };
+		return {
+			done: archived ? 'Rig archived: its feed keys no longer open a feed.' : 'Rig back in service.'
+		};
 	},
 	createKey: async ({ request, params, locals, getClientAddress }) => {
 		const parsed = await parseForm(request, createKeySchema);
 		if (!parsed.ok) return parsed.failure;
 		try {
-			const { key, secret } = await createFeedKey(actorOf(locals, getClientAddress()), params.id, parsed.data);
+			const { key, secret } = await createFeedKey(
+				actorOf(locals, getClientAddress()),
+				params.id,
+				parsed.data
+			);
 			return { newKey: { secret, prefix: key.prefix, label: key.label, rotated: false } };
 		} catch (err) {
 			return rigsFormFailure(err, { label: parsed.data.label });
@@ -70,7 +85,8 @@ export const actions = {
 	labelKey: async ({ request, params, locals, getClientAddress }) => {
 		const parsed = await parseForm(request, keyIdSchema.and(labelKeySchema));
 		if (!parsed.ok) return parsed.failure;
-		if (!(await keyOfRig(params.id, parsed.data.id))) return formError(404, 'No such feed key on this rig');
+		if (!(await keyOfRig(params.id, parsed.data.id)))
+			return formError(404, 'No such feed key on this rig');
 		try {
 			await labelFeedKey(actorOf(locals, getClientAddress()), parsed.data.id, parsed.data.label);
 		} catch (err) {
@@ -81,7 +97,8 @@ export const actions = {
 	revokeKey: async ({ request, params, locals, getClientAddress }) => {
 		const parsed = await parseForm(request, keyIdSchema);
 		if (!parsed.ok) return parsed.failure;
-		if (!(await keyOfRig(params.id, parsed.data.id))) return formError(404, 'No such feed key on this rig');
+		if (!(await keyOfRig(params.id, parsed.data.id)))
+			return formError(404, 'No such feed key on this rig');
 		try {
 			const key = await revokeFeedKey(actorOf(locals, getClientAddress()), parsed.data.id);
 			return { done: `Feed key ${key.prefix}… revoked; rigs streaming with it are cut off.` };
@@ -92,9 +109,14 @@ export const actions = {
 	rotateKey: async ({ request, params, locals, getClientAddress }) => {
 		const parsed = await parseForm(request, keyIdSchema.and(rotateKeySchema));
 		if (!parsed.ok) return parsed.failure;
-		if (!(await keyOfRig(params.id, parsed.data.id))) return formError(404, 'No such feed key on this rig');
+		if (!(await keyOfRig(params.id, parsed.data.id)))
+			return formError(404, 'No such feed key on this rig');
 		try {
-			const { key, secret } = await rotateFeedKey(actorOf(locals, getClientAddress()), parsed.data.id, parsed.data.grace_minutes);
+			const { key, secret } = await rotateFeedKey(
+				actorOf(locals, getClientAddress()),
+				parsed.data.id,
+				parsed.data.grace_minutes
+			);
 			return { newKey: { secret, prefix: key.prefix, label: key.label, rotated: true } };
 		} catch (err) {
 			return rigsFormFailure(err);

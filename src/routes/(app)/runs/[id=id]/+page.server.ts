@@ -44,7 +44,10 @@ export const actions = {
 		} catch {
 			view = null;
 		}
-		const parsed = newPinSchema.safeParse({ ...raw, view: pinViewSchema.safeParse(view).success ? view : undefined });
+		const parsed = newPinSchema.safeParse({
+			...raw,
+			view: pinViewSchema.safeParse(view).success ? view : undefined
+		});
 		if (!parsed.success) return fail(400, { errors: fieldErrors(parsed.error), values: raw });
 		try {
 			const pin = await createPin(params.id, locals.user!.id, parsed.data);

@@ -39,13 +39,22 @@ export function apply(r: Rigid, x: number, y: number): [number, number] {
 }
 
 /** Semi-axes (at `sigma` standard deviations) and angle of the ellipse of a 2×2 covariance [[a, b], [b, d]]. */
-export function ellipse(a: number, b: number, d: number, sigma: number): { rx: number; ry: number; angle: number } | null {
+export function ellipse(
+	a: number,
+	b: number,
+	d: number,
+	sigma: number
+): { rx: number; ry: number; angle: number } | null {
 	if (!(a >= 0 && d >= 0) || !Number.isFinite(b)) return null;
 	const mid = (a + d) / 2;
 	const rad = Math.sqrt(((a - d) / 2) ** 2 + b * b);
 	const l1 = mid + rad;
 	const l2 = Math.max(0, mid - rad);
-	return { rx: sigma * Math.sqrt(l1), ry: sigma * Math.sqrt(l2), angle: 0.5 * Math.atan2(2 * b, a - d) };
+	return {
+		rx: sigma * Math.sqrt(l1),
+		ry: sigma * Math.sqrt(l2),
+		angle: 0.5 * Math.atan2(2 * b, a - d)
+	};
 }
 
 /** A scale bar length that reads well: 1, 2 or 5 × 10ⁿ metres, about `targetPx` long. */

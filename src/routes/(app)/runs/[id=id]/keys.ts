@@ -15,7 +15,8 @@ interface Targets {
 /** typing fields and selects keep every key; a focused checkbox or button keeps only Space, which operates it */
 function screenKey(el: HTMLElement, key: string): boolean {
 	if (el.isContentEditable || el.tagName === 'TEXTAREA' || el.tagName === 'SELECT') return false;
-	if (el instanceof HTMLInputElement) return ['checkbox', 'button', 'submit', 'reset'].includes(el.type) && key !== ' ';
+	if (el instanceof HTMLInputElement)
+		return ['checkbox', 'button', 'submit', 'reset'].includes(el.type) && key !== ' ';
 	if (el.tagName === 'BUTTON' || el.tagName === 'A') return key !== ' ';
 	return true;
 }

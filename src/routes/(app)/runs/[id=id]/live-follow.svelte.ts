@@ -4,7 +4,13 @@
  * server's clock (see LiveSocket), with its p95 over the last minute. Any move of the playhead by the person
  * (scrub, step, play) leaves following; `L` (follow()) returns to the live edge.
  */
-import { LatencyWindow, RateMeter, type LiveFrameMessage, type LiveRunState, type LiveServerMessage } from '$lib/viewer/live-protocol';
+import {
+	LatencyWindow,
+	RateMeter,
+	type LiveFrameMessage,
+	type LiveRunState,
+	type LiveServerMessage
+} from '$lib/viewer/live-protocol';
 import { LiveSocket, type LiveSocketStatus } from '$lib/viewer/live-socket';
 import type { RunPlayer } from './player.svelte';
 
@@ -40,7 +46,9 @@ export class LiveFollow {
 	/** run-relative time of the frame shown while following */
 	liveT = $state<number | null>(null);
 
-	readonly isFollowing = $derived.by(() => this.following && !this.player.playing && this.player.t === this.#shownT);
+	readonly isFollowing = $derived.by(
+		() => this.following && !this.player.playing && this.player.t === this.#shownT
+	);
 
 	readonly player: RunPlayer;
 	#o: LiveFollowOptions;
@@ -98,7 +106,8 @@ export class LiveFollow {
 			this.runState = m.state;
 			const at = (this.stateChangedAt = Date.now());
 			// "live again" is news for a moment; ended and interrupted stay said
-			if (m.state === 'live') setTimeout(() => this.stateChangedAt === at && (this.stateChangedAt = null), 6000);
+			if (m.state === 'live')
+				setTimeout(() => this.stateChangedAt === at && (this.stateChangedAt = null), 6000);
 		} else if (m.type === 'frame') {
 			this.#firstT ??= m.t;
 			this.#rate.add(m.t, 1 + m.skipped);

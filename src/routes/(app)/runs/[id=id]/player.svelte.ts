@@ -3,7 +3,13 @@
  * The displayed frame is the nearest one on hand; while the wanted window loads the screen says "catching up".
  */
 import { Unpackr } from 'msgpackr';
-import { evaluateFrame, parseMetricSettings, defaultMetricSettings, type FrameEvaluation, type MetricSettings } from '$lib/metrics';
+import {
+	evaluateFrame,
+	parseMetricSettings,
+	defaultMetricSettings,
+	type FrameEvaluation,
+	type MetricSettings
+} from '$lib/metrics';
 import type { Frame } from '$lib/protocol/types';
 import { FrameCache } from '$lib/viewer/frame-cache';
 
@@ -48,8 +54,12 @@ export class RunPlayer {
 	readonly run: PlayerRun;
 	readonly cache: FrameCache | null;
 	readonly settings: MetricSettings;
-	readonly evaluation: FrameEvaluation | null = $derived.by(() => (this.frame ? this.evaluate(this.frame) : null));
-	readonly panelEvaluation: FrameEvaluation | null = $derived.by(() => (this.panel.frame ? this.evaluate(this.panel.frame) : null));
+	readonly evaluation: FrameEvaluation | null = $derived.by(() =>
+		this.frame ? this.evaluate(this.frame) : null
+	);
+	readonly panelEvaluation: FrameEvaluation | null = $derived.by(() =>
+		this.panel.frame ? this.evaluate(this.panel.frame) : null
+	);
 
 	#raf = 0;
 	#panelAt = 0;
@@ -59,7 +69,9 @@ export class RunPlayer {
 
 	constructor(run: PlayerRun, t0 = 0) {
 		this.run = run;
-		const parsed = run.metricSettings ? parseMetricSettings(run.metricSettings, run.stateFields) : null;
+		const parsed = run.metricSettings
+			? parseMetricSettings(run.metricSettings, run.stateFields)
+			: null;
 		this.settings = parsed?.ok ? parsed.settings : defaultMetricSettings;
 		this.t = clamp(t0, 0, run.duration);
 		const rate = run.frameRate && run.frameRate > 0 ? run.frameRate : 10;
@@ -88,10 +100,13 @@ export class RunPlayer {
 	}
 
 	async #fetch(from: number, to: number, signal: AbortSignal, limit: number): Promise<Frame[]> {
-		const res = await fetch(`/api/runs/${this.run.id}/frames?from=${from}&to=${to}&limit=${limit}`, {
-			headers: { accept: 'application/x-msgpack' },
-			signal
-		});
+		const res = await fetch(
+			`/api/runs/${this.run.id}/frames?from=${from}&to=${to}&limit=${limit}`,
+			{
+				headers: { accept: 'application/x-msgpack' },
+				signal
+			}
+		);
 		if (!res.ok) throw new Error(`frames: HTTP ${res.status}`);
 		return (unpackr.unpack(new Uint8Array(await res.arrayBuffer())) as { frames: Frame[] }).frames;
 	}
@@ -101,7 +116,11 @@ export class RunPlayer {
 		let e = this.#evals.get(frame);
 		if (!e) {
 			try {
-				e = evaluateFrame(frame, { stateFields: this.run.stateFields, settings: this.settings, coords: this.run.coords });
+				e = evaluateFrame(frame, {
+					stateFields: this.run.stateFields,
+					settings: this.settings,
+					coords: this.run.coords
+				});
 			} catch {
 				return null;
 			}

@@ -79,7 +79,13 @@ void main() {
 
 /** 0xRRGGBB and alpha as the little-endian RGBA bytes of one Uint32 */
 export function rgba(color: number, alpha = 1): number {
-	return ((Math.round(Math.min(1, Math.max(0, alpha)) * 255) << 24) | ((color & 0xff) << 16) | (color & 0xff00) | ((color >> 16) & 0xff)) >>> 0;
+	return (
+		((Math.round(Math.min(1, Math.max(0, alpha)) * 255) << 24) |
+			((color & 0xff) << 16) |
+			(color & 0xff00) |
+			((color >> 16) & 0xff)) >>>
+		0
+	);
 }
 
 /** A growable vertex list drawn with one shader in one call. */
@@ -94,7 +100,13 @@ class Batch {
 	#buffers: { pos: PixiBuffer; col: PixiBuffer; extra: PixiBuffer | null };
 	#geometry: Geometry;
 
-	constructor(pixi: Pixi, topology: 'line-list' | 'point-list', vertex: string, fragment: string, uniforms: UniformGroup | null) {
+	constructor(
+		pixi: Pixi,
+		topology: 'line-list' | 'point-list',
+		vertex: string,
+		fragment: string,
+		uniforms: UniformGroup | null
+	) {
 		this.#pixi = pixi;
 		const { Buffer, BufferUsage, Geometry, GlProgram, Mesh, Shader } = pixi;
 		const usage = BufferUsage.VERTEX | BufferUsage.COPY_DST;
@@ -108,9 +120,13 @@ class Batch {
 			aPosition: { buffer: this.#buffers.pos, format: 'float32x2' },
 			aColor: { buffer: this.#buffers.col, format: 'unorm8x4' }
 		};
-		if (this.#buffers.extra) attributes.aShape = { buffer: this.#buffers.extra, format: 'float32x2' };
+		if (this.#buffers.extra)
+			attributes.aShape = { buffer: this.#buffers.extra, format: 'float32x2' };
 		this.#geometry = new Geometry({ attributes, indexBuffer: new Uint32Array(1), topology });
-		const shader = new Shader({ glProgram: GlProgram.from({ vertex, fragment }), resources: uniforms ? { markerUniforms: uniforms } : {} });
+		const shader = new Shader({
+			glProgram: GlProgram.from({ vertex, fragment }),
+			resources: uniforms ? { markerUniforms: uniforms } : {}
+		});
 		this.mesh = new Mesh<Geometry, Shader>({ geometry: this.#geometry, shader });
 		this.#grow(4096);
 	}

@@ -8,7 +8,16 @@ import type { Application, BitmapText, Container, Graphics, GraphicsContext, Tex
 import type { FrameEvaluation, Zone } from '$lib/metrics';
 import type { Estimate, Frame } from '$lib/protocol/types';
 import type { Layer } from '$lib/viewer/view';
-import { apply, compose, ellipse, identity, niceLength, rigidBetween, type Coords, type Rigid } from './geometry';
+import {
+	apply,
+	compose,
+	ellipse,
+	identity,
+	niceLength,
+	rigidBetween,
+	type Coords,
+	type Rigid
+} from './geometry';
 import { LineBatch, MarkerBatch, rgba, Shape } from './scene-batches';
 
 type Pixi = typeof import('pixi.js');
@@ -16,7 +25,13 @@ type Pixi = typeof import('pixi.js');
 /** estimate labels are all shown only when at most this many estimates are on screen */
 const LABELS_AT_MOST = 40;
 const TRAIL_STEP_PX = 3;
-const C = { measurement: 0xc07a12, estimate: 0x0e7c74, truth: 0x8e2c66, ego: 0x243b6b, zone: 0x4f46e5 };
+const C = {
+	measurement: 0xc07a12,
+	estimate: 0x0e7c74,
+	truth: 0x8e2c66,
+	ego: 0x243b6b,
+	zone: 0x4f46e5
+};
 
 export interface SceneInput {
 	frame: Frame | null;
@@ -46,7 +61,14 @@ export interface Pickable {
 declare global {
 	interface Window {
 		/** the scene's render counter, read by the viewer benchmark */
-		__skeinScene?: { frames: number; draws: number; seq: number | null; t: number | null; drawnAt: number; drawMs: number };
+		__skeinScene?: {
+			frames: number;
+			draws: number;
+			seq: number | null;
+			t: number | null;
+			drawnAt: number;
+			drawMs: number;
+		};
 	}
 }
 
@@ -120,16 +142,31 @@ export class SceneManager {
 		};
 		this.#g.grid = root.addChild(new Graphics());
 		this.#g.zones = root.addChild(new Graphics());
-		this.#zoneText = new Pool(layer(), () => new Text({ text: '', style: { fontFamily: 'IBM Plex Mono', fontSize: 11, fill: C.zone } }));
+		this.#zoneText = new Pool(
+			layer(),
+			() =>
+				new Text({ text: '', style: { fontFamily: 'IBM Plex Mono', fontSize: 11, fill: C.zone } })
+		);
 		this.#lines = new LineBatch(pixi);
 		root.addChild(this.#lines.mesh);
 		this.#marks = new MarkerBatch(pixi, app.renderer.resolution);
 		root.addChild(this.#marks.mesh);
-		this.#labels = new Pool(layer(), () => new BitmapText({ text: '', style: { fontFamily: 'IBM Plex Mono', fontSize: 10, fill: C.estimate } }));
-		this.#ego = root.addChild(new Graphics(ctx((c) => c.poly([11, 0, -6, 7, -2, 0, -6, -7]).fill(C.ego))));
+		this.#labels = new Pool(
+			layer(),
+			() =>
+				new BitmapText({
+					text: '',
+					style: { fontFamily: 'IBM Plex Mono', fontSize: 10, fill: C.estimate }
+				})
+		);
+		this.#ego = root.addChild(
+			new Graphics(ctx((c) => c.poly([11, 0, -6, 7, -2, 0, -6, -7]).fill(C.ego)))
+		);
 		this.#g.select = root.addChild(new Graphics());
 		this.#g.scale = root.addChild(new Graphics());
-		this.#scaleText = root.addChild(new Text({ text: '', style: { fontFamily: 'IBM Plex Mono', fontSize: 11, fill: 0x1c2230 } }));
+		this.#scaleText = root.addChild(
+			new Text({ text: '', style: { fontFamily: 'IBM Plex Mono', fontSize: 11, fill: 0x1c2230 } })
+		);
 
 		window.__skeinScene ??= { frames: 0, draws: 0, seq: null, t: null, drawnAt: 0, drawMs: 0 };
 		// render on demand: a paused scene costs nothing, a playing one one render per new frame
@@ -178,7 +215,10 @@ export class SceneManager {
 			return m ? parseInt(m[1], 16) : fallback;
 		};
 		this.#app.renderer.background.color = hex(css.getPropertyValue('--sk-panel'), 0xffffff);
-		this.#theme = { grid: hex(css.getPropertyValue('--sk-hairline'), 0xe4e0d6), ink: hex(css.getPropertyValue('--sk-ink'), 0x1c2230) };
+		this.#theme = {
+			grid: hex(css.getPropertyValue('--sk-hairline'), 0xe4e0d6),
+			ink: hex(css.getPropertyValue('--sk-ink'), 0x1c2230)
+		};
 		this.#scaleText.style.fill = this.#theme.ink;
 		this.invalidate();
 	}
@@ -237,7 +277,10 @@ export class SceneManager {
 		const out: [number, number][] = [];
 		for (const e of frame.estimates ?? []) out.push(apply(tr, e.x[ix], e.x[iy]));
 		for (const t of frame.truth ?? []) out.push(apply(tr, t.x[ix], t.x[iy]));
-		if (frame.ego) out.push(apply(compose(rigidBetween('world', coords, frame.ego), identity), frame.ego.x, frame.ego.y));
+		if (frame.ego)
+			out.push(
+				apply(compose(rigidBetween('world', coords, frame.ego), identity), frame.ego.x, frame.ego.y)
+			);
 		return out;
 	}
 
@@ -246,7 +289,13 @@ export class SceneManager {
 		const m = this.#geo.measurementFields;
 		const ix = Math.max(0, f.indexOf('x'));
 		const iy = f.indexOf('y') < 0 ? 1 : f.indexOf('y');
-		return { ix, iy, dim: f.length, mx: Math.max(0, m.indexOf('x')), my: m.indexOf('y') < 0 ? 1 : m.indexOf('y') };
+		return {
+			ix,
+			iy,
+			dim: f.length,
+			mx: Math.max(0, m.indexOf('x')),
+			my: m.indexOf('y') < 0 ? 1 : m.indexOf('y')
+		};
 	}
 
 	#draw() {
@@ -300,9 +349,22 @@ export class SceneManager {
 					const [px, py] = estScreen[i];
 					const alpha = Math.max(0.25, e.r ?? 1);
 					if (e.P && e.P.length === dim * dim) {
-						const el = ellipse(e.P[ix * dim + ix], e.P[ix * dim + iy], e.P[iy * dim + iy], inp.sigma);
+						const el = ellipse(
+							e.P[ix * dim + ix],
+							e.P[ix * dim + iy],
+							e.P[iy * dim + iy],
+							inp.sigma
+						);
 						// an ellipse inside the dot would not show; skip it
-						if (el && el.rx * z >= 3) lines.ellipse(px, py, el.rx * z, Math.max(el.ry * z, 0.5), -(el.angle + tr.rot), rgba(C.estimate, alpha));
+						if (el && el.rx * z >= 3)
+							lines.ellipse(
+								px,
+								py,
+								el.rx * z,
+								Math.max(el.ry * z, 0.5),
+								-(el.angle + tr.rot),
+								rgba(C.estimate, alpha)
+							);
 					}
 					marks.mark(Shape.dot, px, py, rgba(C.estimate, alpha));
 					picks.push({ key: objectKey('e', e.id, i), kind: 'estimate', index: i, sx: px, sy: py });
@@ -314,14 +376,27 @@ export class SceneManager {
 				const color = rgba(C.truth);
 				truth.forEach((t, i) => {
 					marks.mark(Shape.square, truthScreen[i][0], truthScreen[i][1], color);
-					picks.push({ key: objectKey('t', t.id, i), kind: 'truth', index: i, sx: truthScreen[i][0], sy: truthScreen[i][1] });
+					picks.push({
+						key: objectKey('t', t.id, i),
+						kind: 'truth',
+						index: i,
+						sx: truthScreen[i][0],
+						sy: truthScreen[i][1]
+					});
 				});
 			}
 
 			const gospa = inp.evaluation?.gospa;
 			if (on('assignment') && gospa) {
 				const link = rgba(this.#theme.ink, 0.55);
-				for (const [ti, ej] of gospa.pairs) lines.segment(truthScreen[ti][0], truthScreen[ti][1], estScreen[ej][0], estScreen[ej][1], link);
+				for (const [ti, ej] of gospa.pairs)
+					lines.segment(
+						truthScreen[ti][0],
+						truthScreen[ti][1],
+						estScreen[ej][0],
+						estScreen[ej][1],
+						link
+					);
 				const missed = rgba(C.truth);
 				gospa.truthToEstimate.forEach((j, i) => {
 					if (j < 0) marks.mark(Shape.ring, truthScreen[i][0], truthScreen[i][1], missed);
@@ -341,7 +416,10 @@ export class SceneManager {
 			}
 
 			const sel = inp.selected ? picks.find((p) => p.key === inp.selected) : undefined;
-			if (sel) this.#g.select.circle(sel.sx, sel.sy, 13).stroke({ width: 2, color: this.#theme.ink, alpha: 0.8 });
+			if (sel)
+				this.#g.select
+					.circle(sel.sx, sel.sy, 13)
+					.stroke({ width: 2, color: this.#theme.ink, alpha: 0.8 });
 		} else this.#labels.end();
 		lines.end();
 		marks.end();
@@ -359,7 +437,8 @@ export class SceneManager {
 	 */
 	#drawLabels(inp: SceneInput, est: Estimate[], at: [number, number][], W: number, H: number) {
 		const visible: number[] = [];
-		for (let i = 0; i < est.length; i++) if (at[i][0] >= 0 && at[i][0] <= W && at[i][1] >= 0 && at[i][1] <= H) visible.push(i);
+		for (let i = 0; i < est.length; i++)
+			if (at[i][0] >= 0 && at[i][0] <= W && at[i][1] >= 0 && at[i][1] <= H) visible.push(i);
 		const wanted = new Set<number>(visible.length <= LABELS_AT_MOST ? visible : []);
 		for (const key of [inp.selected, this.hover?.kind === 'estimate' ? this.hover.key : null]) {
 			if (!key || key[0] !== 'e') continue;
@@ -387,13 +466,18 @@ export class SceneManager {
 		const step = niceLength(this.zoom, 60);
 		const x0 = this.cx - W / 2 / this.zoom;
 		const y0 = this.cy - H / 2 / this.zoom;
-		for (let x = Math.floor(x0 / step) * step; x <= x0 + W / this.zoom; x += step) g.moveTo(sx(x), 0).lineTo(sx(x), H);
-		for (let y = Math.floor(y0 / step) * step; y <= y0 + H / this.zoom; y += step) g.moveTo(0, sy(y)).lineTo(W, sy(y));
+		for (let x = Math.floor(x0 / step) * step; x <= x0 + W / this.zoom; x += step)
+			g.moveTo(sx(x), 0).lineTo(sx(x), H);
+		for (let y = Math.floor(y0 / step) * step; y <= y0 + H / this.zoom; y += step)
+			g.moveTo(0, sy(y)).lineTo(W, sy(y));
 		g.stroke({ width: 1, color: this.#theme.grid, pixelLine: true });
 		const len = niceLength(this.zoom, 100);
 		const s = this.#g.scale;
 		s.clear();
-		s.moveTo(16, H - 18).lineTo(16 + len * this.zoom, H - 18).moveTo(16, H - 23).lineTo(16, H - 13);
+		s.moveTo(16, H - 18)
+			.lineTo(16 + len * this.zoom, H - 18)
+			.moveTo(16, H - 23)
+			.lineTo(16, H - 13);
 		s.moveTo(16 + len * this.zoom, H - 23).lineTo(16 + len * this.zoom, H - 13);
 		s.stroke({ width: 1.5, color: this.#theme.ink });
 		const label = `${len >= 1 ? len : len.toPrecision(1)} m`;
@@ -418,7 +502,10 @@ export class SceneManager {
 			].map(([x, y]) => {
 				const dx = x - cxz;
 				const dy = y - cyz;
-				const [rx, ry] = [cxz + Math.cos(a) * dx - Math.sin(a) * dy, cyz + Math.sin(a) * dx + Math.cos(a) * dy];
+				const [rx, ry] = [
+					cxz + Math.cos(a) * dx - Math.sin(a) * dy,
+					cyz + Math.sin(a) * dx + Math.cos(a) * dy
+				];
 				const [wx, wy] = apply(tr, rx, ry);
 				return [sx(wx), sy(wy)] as [number, number];
 			});
@@ -429,7 +516,10 @@ export class SceneManager {
 			const t = this.#zoneText.next();
 			const label = `${zone.name} · P ${p === undefined ? '—' : p.toFixed(2)}`;
 			if (t.text !== label) t.text = label;
-			t.position.set(Math.min(...corners.map((c) => c[0])) + 4, Math.min(...corners.map((c) => c[1])) - 16);
+			t.position.set(
+				Math.min(...corners.map((c) => c[0])) + 4,
+				Math.min(...corners.map((c) => c[1])) - 16
+			);
 		}
 	}
 
@@ -448,7 +538,10 @@ export class SceneManager {
 			const last = new Map<string | number, [number, number]>();
 			for (let k = 0; k < inp.trail.length; k += stride) {
 				const f = inp.trail[k];
-				const tr = this.#geo.coords === 'ego' && !f.ego ? identity : compose(toCurrent, rigidBetween(this.#geo.coords, 'world', f.ego));
+				const tr =
+					this.#geo.coords === 'ego' && !f.ego
+						? identity
+						: compose(toCurrent, rigidBetween(this.#geo.coords, 'world', f.ego));
 				const final = k + stride >= inp.trail.length;
 				for (const o of f[kind] ?? []) {
 					if (o.id === undefined) continue;
@@ -554,7 +647,13 @@ function softwareWebGL(): boolean {
 	return /swiftshader|llvmpipe|softpipe|software/i.test(name);
 }
 
-function dash(g: Graphics, [x0, y0]: [number, number], [x1, y1]: [number, number], on: number, off: number) {
+function dash(
+	g: Graphics,
+	[x0, y0]: [number, number],
+	[x1, y1]: [number, number],
+	on: number,
+	off: number
+) {
 	const len = Math.hypot(x1 - x0, y1 - y0);
 	if (len === 0) return;
 	const ux = (x1 - x0) / len;

@@ -25,7 +25,13 @@ export interface StripSpec {
 	id: string;
 	title: string;
 	unit: string;
-	lines: { label: string; values: (number | null)[]; color: string; fill?: string; dash?: number[] }[];
+	lines: {
+		label: string;
+		values: (number | null)[];
+		color: string;
+		fill?: string;
+		dash?: number[];
+	}[];
 	/** pairs of line indexes to shade between */
 	bands?: [number, number, string][];
 }
@@ -49,9 +55,15 @@ export class StripsState {
 	async load(from: number, to: number, px: number) {
 		this.#abort?.abort();
 		const abort = (this.#abort = new AbortController());
-		const buckets = bucketsFor(px, Math.ceil((this.frames * (to - from)) / Math.max(this.duration, 1e-9)));
+		const buckets = bucketsFor(
+			px,
+			Math.ceil((this.frames * (to - from)) / Math.max(this.duration, 1e-9))
+		);
 		try {
-			const res = await fetch(`/api/runs/${this.runId}/series?from=${from}&to=${to}&buckets=${buckets}`, { signal: abort.signal });
+			const res = await fetch(
+				`/api/runs/${this.runId}/series?from=${from}&to=${to}&buckets=${buckets}`,
+				{ signal: abort.signal }
+			);
 			if (!res.ok) throw new Error(`series: HTTP ${res.status}`);
 			const body = (await res.json()) as { series: Series | null };
 			this.series = body.series;
@@ -67,7 +79,8 @@ export class StripsState {
 		const full = from <= 0 && to >= this.duration;
 		this.range = full ? null : [from, to];
 		if (full && this.overview) this.series = this.overview;
-		else if (!this.series || needsRefinement(this.series.width, from, to, px)) void this.load(from, to, px);
+		else if (!this.series || needsRefinement(this.series.width, from, to, px))
+			void this.load(from, to, px);
 	}
 
 	/** bucket starts where GOSPA jumps well above its run level (mean + 2 sd of the bucket maxima) */
@@ -81,7 +94,8 @@ export class StripsState {
 		const sd = Math.sqrt(vals.reduce((a, b) => a + (b - mean) ** 2, 0) / vals.length);
 		const out: number[] = [];
 		g.forEach((v, i) => {
-			if (v !== null && v > mean + 2 * sd && (i === 0 || (g[i - 1] ?? 0) <= mean + 2 * sd)) out.push(s.t[i]);
+			if (v !== null && v > mean + 2 * sd && (i === 0 || (g[i - 1] ?? 0) <= mean + 2 * sd))
+				out.push(s.t[i]);
 		});
 		return out;
 	});
@@ -95,7 +109,10 @@ export class StripsState {
 		const loc = col('gospa_localization').mean;
 		const missed = col('gospa_missed').mean.map((v) => (v === null ? null : v * half));
 		const falses = col('gospa_false').mean.map((v) => (v === null ? null : v * half));
-		const sum = (...a: (number | null)[][]) => a[0].map((_, i) => (a.some((x) => x[i] === null) ? null : a.reduce((acc, x) => acc + (x[i] as number), 0)));
+		const sum = (...a: (number | null)[][]) =>
+			a[0].map((_, i) =>
+				a.some((x) => x[i] === null) ? null : a.reduce((acc, x) => acc + (x[i] as number), 0)
+			);
 		const b = neesBounds(1, this.dim);
 		const unitP = p === 1 ? 'm' : `m^${p}`;
 		const zoneColors = ['#4F46E5', '#0E7C74', '#C07A12', '#8E2C66'];
@@ -107,7 +124,12 @@ export class StripsState {
 				lines: [
 					{ label: 'truth', values: col('n_truth').mean, color: '#8E2C66' },
 					{ label: 'estimates', values: col('n_estimates').mean, color: '#0E7C74' },
-					{ label: 'E[N]', values: col('expected_cardinality').mean, color: '#0E7C74', dash: [4, 3] },
+					{
+						label: 'E[N]',
+						values: col('expected_cardinality').mean,
+						color: '#0E7C74',
+						dash: [4, 3]
+					},
 					{ label: 'E[N] min', values: col('expected_cardinality').min, color: 'transparent' },
 					{ label: 'E[N] max', values: col('expected_cardinality').max, color: 'transparent' }
 				],
@@ -119,8 +141,18 @@ export class StripsState {
 				unit: unitP,
 				lines: [
 					{ label: 'localization', values: loc, color: '#0E7C74', fill: 'rgba(14,124,116,0.35)' },
-					{ label: '+ missed', values: sum(loc, missed), color: '#8E2C66', fill: 'rgba(142,44,102,0.3)' },
-					{ label: '+ false', values: sum(loc, missed, falses), color: '#C07A12', fill: 'rgba(192,122,18,0.3)' }
+					{
+						label: '+ missed',
+						values: sum(loc, missed),
+						color: '#8E2C66',
+						fill: 'rgba(142,44,102,0.3)'
+					},
+					{
+						label: '+ false',
+						values: sum(loc, missed, falses),
+						color: '#C07A12',
+						fill: 'rgba(192,122,18,0.3)'
+					}
 				],
 				bands: [
 					[2, 1, 'rgba(192,122,18,0.3)'],
@@ -142,8 +174,18 @@ export class StripsState {
 				unit: 'χ²',
 				lines: [
 					{ label: 'NEES', values: col('nees_mean').mean, color: '#0E7C74' },
-					{ label: 'lower', values: s.t.map(() => b.lower), color: 'rgba(79,70,229,0.5)', dash: [3, 3] },
-					{ label: 'upper', values: s.t.map(() => b.upper), color: 'rgba(79,70,229,0.5)', dash: [3, 3] }
+					{
+						label: 'lower',
+						values: s.t.map(() => b.lower),
+						color: 'rgba(79,70,229,0.5)',
+						dash: [3, 3]
+					},
+					{
+						label: 'upper',
+						values: s.t.map(() => b.upper),
+						color: 'rgba(79,70,229,0.5)',
+						dash: [3, 3]
+					}
 				],
 				bands: [[2, 1, 'rgba(79,70,229,0.08)']]
 			},
@@ -151,7 +193,11 @@ export class StripsState {
 				id: 'zones',
 				title: 'Zone occupancy',
 				unit: 'P',
-				lines: Object.entries(s.zones).map(([name, z], i) => ({ label: name, values: z.mean, color: zoneColors[i % 4] }))
+				lines: Object.entries(s.zones).map(([name, z], i) => ({
+					label: name,
+					values: z.mean,
+					color: zoneColors[i % 4]
+				}))
 			}
 		];
 	});

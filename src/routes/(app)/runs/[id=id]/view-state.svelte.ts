@@ -18,10 +18,18 @@ export class ViewState {
 	}
 
 	toggle(layer: Layer) {
-		this.layers = this.layers.includes(layer) ? this.layers.filter((l) => l !== layer) : [...this.layers, layer];
+		this.layers = this.layers.includes(layer)
+			? this.layers.filter((l) => l !== layer)
+			: [...this.layers, layer];
 	}
 
 	snapshot(camera: { zoom: number; cx: number; cy: number }): PinView {
-		return { ...camera, coords: this.coords, layers: [...this.layers], sigma: this.sigma, selected: this.selected };
+		return {
+			...camera,
+			coords: this.coords,
+			layers: [...this.layers],
+			sigma: this.sigma,
+			selected: this.selected
+		};
 	}
 }

@@ -19,10 +19,14 @@ export const actions = {
 		try {
 			userId = (await acceptInvite(params.token, parsed.data.name, parsed.data.password, ip)).id;
 		} catch (err) {
-			if (err instanceof PeopleError) return formError(400, err.message, '_', { name: parsed.data.name });
+			if (err instanceof PeopleError)
+				return formError(400, err.message, '_', { name: parsed.data.name });
 			throw err;
 		}
-		const session = await createSession(userId, { ip, userAgent: request.headers.get('user-agent') });
+		const session = await createSession(userId, {
+			ip,
+			userAgent: request.headers.get('user-agent')
+		});
 		const c = sessionCookie(session.id, url.protocol === 'https:');
 		cookies.set(c.name, c.value, c.attributes);
 		redirect(303, '/runs');

@@ -15,7 +15,11 @@ export const GET: RequestHandler = rigsEndpoint(async ({ params }) => {
 	return json({ key });
 });
 
-export const PATCH: RequestHandler = rigsEndpoint(async ({ params, request, locals, getClientAddress }) => {
-	const input = await readJson(request, labelKeySchema);
-	return json({ key: await labelFeedKey(actorOf(locals, getClientAddress()), params.id, input.label) });
-});
+export const PATCH: RequestHandler = rigsEndpoint(
+	async ({ params, request, locals, getClientAddress }) => {
+		const input = await readJson(request, labelKeySchema);
+		return json({
+			key: await labelFeedKey(actorOf(locals, getClientAddress()), params.id, input.label)
+		});
+	}
+);

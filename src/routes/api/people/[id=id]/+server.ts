@@ -6,9 +6,14 @@ import { getUser, setActive, setRole } from '$server/people';
 import type { RequestHandler } from './$types';
 
 const patchSchema = z
-	.object({ role: roleField.optional(), active: z.boolean({ error: 'active must be true or false' }).optional() })
+	.object({
+		role: roleField.optional(),
+		active: z.boolean({ error: 'active must be true or false' }).optional()
+	})
 	.strict()
-	.refine((v) => v.role !== undefined || v.active !== undefined, { message: 'Send role and/or active' });
+	.refine((v) => v.role !== undefined || v.active !== undefined, {
+		message: 'Send role and/or active'
+	});
 
 export const GET: RequestHandler = endpoint(async ({ params }) => {
 	const user = await getUser(params.id);
@@ -17,13 +22,16 @@ export const GET: RequestHandler = endpoint(async ({ params }) => {
 	return json({ person: visible });
 });
 
-export const PATCH: RequestHandler = endpoint(async ({ params, request, locals, getClientAddress }) => {
-	const input = await readJson(request, patchSchema);
-	const actor = actorOf(locals, getClientAddress());
-	if (input.active === false && params.id === locals.user!.id) throw new ApiError('invalid', 'You cannot deactivate yourself');
-	if (!(await getUser(params.id))) throw new ApiError('not_found', 'No such person');
-	if (input.role !== undefined) await setRole(actor, params.id, input.role);
-	if (input.active !== undefined) await setActive(actor, params.id, input.active);
-	const { passwordHash: _omit, ...visible } = (await getUser(params.id))!;
-	return json({ person: visible });
-});
+export const PATCH: RequestHandler = endpoint(
+	async ({ params, request, locals, getClientAddress }) => {
+		const input = await readJson(request, patchSchema);
+		const actor = actorOf(locals, getClientAddress());
+		if (input.active === false && params.id === locals.user!.id)
+			throw new ApiError('invalid', 'You cannot deactivate yourself');
+		if (!(await getUser(params.id))) throw new ApiError('not_found', 'No such person');
+		if (input.role !== undefined) await setRole(actor, params.id, input.role);
+		if (input.active !== undefined) await setActive(actor, params.id, input.active);
+		const { passwordHash: _omit, ...visible } = (await getUser(params.id))!;
+		return json({ person: visible });
+	}
+);

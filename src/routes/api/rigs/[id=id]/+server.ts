@@ -12,7 +12,9 @@ export const GET: RequestHandler = rigsEndpoint(async ({ params }) => {
 });
 
 /** Any of name, description, archived (archiving stops the rig's keys at once). */
-export const PATCH: RequestHandler = rigsEndpoint(async ({ params, request, locals, getClientAddress }) => {
-	const input = await readJson(request, patchRigSchema);
-	return json({ rig: await updateRig(actorOf(locals, getClientAddress()), params.id, input) });
-});
+export const PATCH: RequestHandler = rigsEndpoint(
+	async ({ params, request, locals, getClientAddress }) => {
+		const input = await readJson(request, patchRigSchema);
+		return json({ rig: await updateRig(actorOf(locals, getClientAddress()), params.id, input) });
+	}
+);

@@ -11,8 +11,19 @@ export const GET: RequestHandler = rigsEndpoint(async ({ params }) => {
 });
 
 /** `{label?, expiresAt?}`; the answer is the only place the secret ever appears. */
-export const POST: RequestHandler = rigsEndpoint(async ({ params, request, locals, getClientAddress }) => {
-	const input = await readJson(request, createKeySchema);
-	const { key, secret } = await createFeedKey(actorOf(locals, getClientAddress()), params.id, input);
-	return json({ key: { id: key.id, prefix: key.prefix, label: key.label, expiresAt: key.expiresAt, secret } }, { status: 201 });
-});
+export const POST: RequestHandler = rigsEndpoint(
+	async ({ params, request, locals, getClientAddress }) => {
+		const input = await readJson(request, createKeySchema);
+		const { key, secret } = await createFeedKey(
+			actorOf(locals, getClientAddress()),
+			params.id,
+			input
+		);
+		return json(
+			{
+				key: { id: key.id, prefix: key.prefix, label: key.label, expiresAt: key.expiresAt, secret }
+			},
+			{ status: 201 }
+		);
+	}
+);

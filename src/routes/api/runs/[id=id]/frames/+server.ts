@@ -12,9 +12,17 @@ const packr = new Packr({ useRecords: false });
 export const GET: RequestHandler = endpoint(async ({ params, url, request }) => {
 	const q = readQuery(url, frameQuery);
 	if (!(await getRun(params.id))) throw new ApiError('not_found', 'No such run');
-	const page = await readFrames(params.id, { fromSeq: q.from_seq, toSeq: q.to_seq, from: q.from, to: q.to, limit: q.limit });
+	const page = await readFrames(params.id, {
+		fromSeq: q.from_seq,
+		toSeq: q.to_seq,
+		from: q.from,
+		to: q.to,
+		limit: q.limit
+	});
 	if ((request.headers.get('accept') ?? '').includes('application/x-msgpack')) {
-		return new Response(new Uint8Array(packr.pack(page)), { headers: { 'content-type': 'application/x-msgpack' } });
+		return new Response(new Uint8Array(packr.pack(page)), {
+			headers: { 'content-type': 'application/x-msgpack' }
+		});
 	}
 	return json(page);
 });

@@ -18,7 +18,8 @@ export const POST: RequestHandler = endpoint(async ({ params, request, locals })
 		const pin = await createPin(params.id, locals.user!.id, body);
 		return json({ pin }, { status: 201 });
 	} catch (err) {
-		if (err instanceof PinError) throw new ApiError('invalid', err.message, { [err.field]: err.message });
+		if (err instanceof PinError)
+			throw new ApiError('invalid', err.message, { [err.field]: err.message });
 		throw err;
 	}
 });
