@@ -47,17 +47,32 @@ async function freshDatabase(name: string): Promise<string> {
 const env = { ...process.env, NODE_ENV: 'test', VITE_CONFIG_NATIVE_IGNORE_WARNING: 'true' };
 
 if (want('check')) {
-	step('svelte-check');
-	const r = spawnSync('npx', ['svelte-kit', 'sync'], { cwd: root, stdio: 'inherit', env });
-	const c = spawnSync(
-		'npx',
-		['svelte-check', '--tsconfig', './tsconfig.json', '--output', 'human'],
-		{ cwd: root, stdio: 'inherit', env }
-	);
-	if (r.status !== 0 || c.status !== 0) {
-		totals.failed += 1;
-		process.stdout.write('svelte-check reported errors\n');
-	} else totals.passed += 1;
+	for (const [name, cmd] of [
+		[
+			'svelte-check',
+			[
+				'npx',
+				'svelte-kit',
+				'sync',
+				'&&',
+				'npx',
+				'svelte-check',
+				'--tsconfig',
+				'./tsconfig.json',
+				'--output',
+				'human'
+			]
+		],
+		['eslint', ['npx', 'eslint', '.']],
+		['prettier', ['npx', 'prettier', '--check', '.']]
+	] as const) {
+		step(name);
+		const r = spawnSync(cmd.join(' '), { cwd: root, stdio: 'inherit', env, shell: true });
+		if (r.status !== 0) {
+			totals.failed += 1;
+			process.stdout.write(`${name} reported problems\n`);
+		} else totals.passed += 1;
+	}
 }
 
 step('build');

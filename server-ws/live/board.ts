@@ -89,8 +89,10 @@ export class BoardHub {
 		for (const info of live) {
 			const known = this.#runs.get(info.id);
 			if (known) {
-				if (known.summary.state !== info.state)
-					((known.summary.state = info.state), (this.#dirty = true));
+				if (known.summary.state !== info.state) {
+					known.summary.state = info.state;
+					this.#dirty = true;
+				}
 				continue;
 			}
 			this.#track(info);

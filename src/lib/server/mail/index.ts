@@ -63,15 +63,13 @@ export async function sendMail(mail: OutgoingMail): Promise<void> {
 	} catch (err) {
 		const message = err instanceof Error ? err.message : String(err);
 		logger.error({ err: message, to: mail.to, kind: mail.kind }, 'mail not sent');
-		await db()
-			.insert(schema.mailOutbox)
-			.values({
-				to: mail.to,
-				subject: mail.subject,
-				kind: mail.kind,
-				status: 'failed',
-				error: message
-			});
+		await db().insert(schema.mailOutbox).values({
+			to: mail.to,
+			subject: mail.subject,
+			kind: mail.kind,
+			status: 'failed',
+			error: message
+		});
 		throw err;
 	}
 }

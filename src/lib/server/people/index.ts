@@ -219,15 +219,13 @@ export async function acceptInvite(
 			.insert(u)
 			.values({ id: newId(), email: invite.email, name, role: invite.role, passwordHash })
 			.returning();
-		await tx
-			.insert(schema.auditLog)
-			.values({
-				actorId: user.id,
-				actorLabel: user.email,
-				action: 'invite.accept',
-				target: user.email,
-				ip
-			});
+		await tx.insert(schema.auditLog).values({
+			actorId: user.id,
+			actorLabel: user.email,
+			action: 'invite.accept',
+			target: user.email,
+			ip
+		});
 		return user;
 	});
 }
@@ -275,15 +273,13 @@ export async function completePasswordReset(token: string, password: string, ip:
 			.set({ passwordHash })
 			.where(eq(u.id, reset.userId))
 			.returning();
-		await tx
-			.insert(schema.auditLog)
-			.values({
-				actorId: user.id,
-				actorLabel: user.email,
-				action: 'password.reset',
-				target: user.email,
-				ip
-			});
+		await tx.insert(schema.auditLog).values({
+			actorId: user.id,
+			actorLabel: user.email,
+			action: 'password.reset',
+			target: user.email,
+			ip
+		});
 		return user.id;
 	});
 	await invalidateUserSessions(userId);

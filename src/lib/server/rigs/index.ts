@@ -60,16 +60,14 @@ async function auditIn(
 	target: string,
 	details: Record<string, unknown> | null = null
 ) {
-	await tx
-		.insert(schema.auditLog)
-		.values({
-			actorId: actor.id,
-			actorLabel: actor.label,
-			action,
-			target,
-			ip: actor.ip ?? null,
-			details
-		});
+	await tx.insert(schema.auditLog).values({
+		actorId: actor.id,
+		actorLabel: actor.label,
+		action,
+		target,
+		ip: actor.ip ?? null,
+		details
+	});
 }
 
 async function notifyStopped(tx: Tx, keyIds: string[]) {

@@ -439,6 +439,8 @@ export class SceneManager {
 		const visible: number[] = [];
 		for (let i = 0; i < est.length; i++)
 			if (at[i][0] >= 0 && at[i][0] <= W && at[i][1] >= 0 && at[i][1] <= H) visible.push(i);
+		// a scratch set for this redraw, not state
+		// eslint-disable-next-line svelte/prefer-svelte-reactivity
 		const wanted = new Set<number>(visible.length <= LABELS_AT_MOST ? visible : []);
 		for (const key of [inp.selected, this.hover?.kind === 'estimate' ? this.hover.key : null]) {
 			if (!key || key[0] !== 'e') continue;
@@ -535,6 +537,7 @@ export class SceneManager {
 			['truth', inp.layers.includes('truth'), rgba(C.truth, 0.5)]
 		] as const) {
 			if (!on) continue;
+			// eslint-disable-next-line svelte/prefer-svelte-reactivity -- scratch map for this redraw, not state
 			const last = new Map<string | number, [number, number]>();
 			for (let k = 0; k < inp.trail.length; k += stride) {
 				const f = inp.trail[k];
