@@ -4,38 +4,13 @@
  * following, `L` returns to live, and the end of the run is said on the screen.
  */
 import { expect, test, type Page } from '@playwright/test';
-import postgres from 'postgres';
-import { hashSecret, newSecret, secretPrefix } from '../../src/lib/server/auth/tokens';
+import { viewer, makeRigWithKey, signIn } from './support';
 import { runSimulatedRig } from '../../tools/sim/rig';
 
-const viewer = { email: 'ruben.alsaker@skein.test', password: 'skein-demo-admin' };
 const base = `http://127.0.0.1:${process.env.E2E_PORT ?? 4317}`;
 const runName = `live follow e2e ${Date.now().toString(36)}`;
 const stop = new AbortController();
 let streaming: Promise<unknown> | null = null;
-
-async function makeRigWithKey(tag: string) {
-	const sql = postgres(process.env.DATABASE_URL!, { max: 1, onnotice: () => {} });
-	try {
-		const name = `${tag}-${Date.now().toString(36)}`;
-		const [rig] = await sql<
-			{ id: string }[]
-		>`insert into rigs (name) values (${name}) returning id`;
-		const secret = newSecret('skf');
-		await sql`insert into feed_keys (rig_id, label, prefix, key_hash) values (${rig.id}, 'e2e', ${secretPrefix(secret)}, ${hashSecret(secret)})`;
-		return { name, secret };
-	} finally {
-		await sql.end();
-	}
-}
-
-async function signIn(page: Page, who: { email: string; password: string }) {
-	await page.goto('/sign-in');
-	await page.getByLabel('E-mail').fill(who.email);
-	await page.getByLabel('Password').fill(who.password);
-	await page.getByRole('button', { name: 'Sign in' }).click();
-	await expect(page.getByTestId('whoami')).toBeVisible();
-}
 
 const sceneSeq = (page: Page) => page.evaluate(() => window.__skeinScene?.seq ?? null);
 const liveSeq = async (page: Page) =>

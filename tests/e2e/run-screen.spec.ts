@@ -4,40 +4,13 @@
  * reopened by its link. A viewer sees pins but cannot pin.
  */
 import { expect, test, type Page } from '@playwright/test';
-import postgres from 'postgres';
+import { admin, viewer, makeRigWithKey, signIn } from './support';
 import { SkeinRigClient } from '../../src/lib/protocol/client';
-import { hashSecret, newSecret, secretPrefix } from '../../src/lib/server/auth/tokens';
 import { MEASUREMENT_FIELDS, STATE_FIELDS, simulate } from '../../src/lib/tracking';
 
-const admin = { email: 'admin@skein.test', password: 'skein-demo-admin' };
-const viewer = { email: 'ruben.alsaker@skein.test', password: 'skein-demo-admin' };
 const base = `http://127.0.0.1:${process.env.E2E_PORT ?? 4317}`;
 let runId = '';
 let rigName = '';
-
-/** A rig and feed key made straight in the e2e database, as tests/support/rigs.ts does for integration tests. */
-async function makeRigWithKey(tag: string) {
-	const sql = postgres(process.env.DATABASE_URL!, { max: 1, onnotice: () => {} });
-	try {
-		const name = `${tag}-${Date.now().toString(36)}`;
-		const [rig] = await sql<
-			{ id: string }[]
-		>`insert into rigs (name) values (${name}) returning id`;
-		const secret = newSecret('skf');
-		await sql`insert into feed_keys (rig_id, label, prefix, key_hash) values (${rig.id}, 'e2e', ${secretPrefix(secret)}, ${hashSecret(secret)})`;
-		return { name, secret };
-	} finally {
-		await sql.end();
-	}
-}
-
-async function signIn(page: Page, who: { email: string; password: string }) {
-	await page.goto('/sign-in');
-	await page.getByLabel('E-mail').fill(who.email);
-	await page.getByLabel('Password').fill(who.password);
-	await page.getByRole('button', { name: 'Sign in' }).click();
-	await expect(page.getByTestId('whoami')).toBeVisible();
-}
 
 const playhead = (page: Page) => page.getByTestId('playhead-time');
 const seconds = (text: string) => {

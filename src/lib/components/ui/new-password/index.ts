@@ -1,0 +1,1 @@
+export { default as NewPasswordFields } from './NewPasswordFields.svelte';
