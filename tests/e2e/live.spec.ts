@@ -49,6 +49,7 @@ test('the Live board shows the streaming run; its tile follows it live on the Ru
 	await expect(page).toHaveURL(/\/runs\/[0-9a-f-]+\?live/);
 	const bar = page.getByTestId('live-bar');
 	await expect(bar).toHaveAttribute('data-state', 'following', { timeout: 15_000 });
+	const lengthAtOpen = await page.getByTestId('run-length').innerText();
 	const first = await liveSeq(page);
 	await expect.poll(() => liveSeq(page), { timeout: 10_000 }).toBeGreaterThan(first + 5);
 	// the scene draws the frames it follows
@@ -58,6 +59,9 @@ test('the Live board shows the streaming run; its tile follows it live on the Ru
 		.toBeGreaterThan(drawn);
 	await expect(page.getByTestId('live-latency')).toHaveText(/\d+ ms/);
 	if (process.env.LIVE_SHOTS) await page.screenshot({ path: 'test-results/live-following.png' });
+
+	// the timeline grows with the run while following
+	await expect(page.getByTestId('run-length')).not.toHaveText(lengthAtOpen);
 
 	// a step back into history pauses following; frames still arrive, the scene stays put
 	await page.keyboard.press('ArrowLeft');

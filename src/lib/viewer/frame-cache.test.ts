@@ -55,6 +55,41 @@ describe('FrameCache', () => {
 		expect(pending.map((p) => Math.round(p.from - T0))).toEqual([5]);
 	});
 
+	it('grows with a live run: the window that reached past the old end is fetched again, whole', async () => {
+		// frames stored so far: 12 s of the run when the page loaded, more as the rig streams
+		let storedS = 12;
+		const asked: number[] = [];
+		const cache = new FrameCache({
+			firstT: T0,
+			duration: 12,
+			windowS: 5,
+			maxWindows: 4,
+			fetchWindow: async (from, to) => {
+				asked.push(Math.round(from - T0));
+				const frames: Frame[] = [];
+				for (let k = Math.max(0, Math.ceil((from - T0) * HZ - 1e-9)); k / HZ + T0 <= to + 1e-9; k++)
+					if (k / HZ <= storedS + 1e-9) frames.push({ seq: k, t: T0 + k / HZ, estimates: [] });
+				return frames;
+			}
+		});
+		const settle = () => new Promise((r) => setTimeout(r, 0));
+		cache.want(11, 1, 0, 0);
+		await settle();
+		expect(asked).toEqual([10]);
+		expect(cache.lookup(14)!.frame.seq).toBe(120); // the last frame on hand
+		storedS = 30;
+		cache.extend(30);
+		cache.want(14, 1, 0, 0);
+		await settle();
+		// window 10–15 s is fetched again: it was cut at the old end when first fetched
+		expect(asked).toEqual([10, 10]);
+		expect(cache.lookup(14)!.frame.seq).toBe(140);
+		cache.extend(20); // never shrinks
+		cache.want(14, 1, 0, 0);
+		await settle();
+		expect(asked).toEqual([10, 10]);
+	});
+
 	it('keeps frames of a window to its own half-open span', async () => {
 		const { cache, flush } = setup();
 		cache.want(4.9, 1);

@@ -40,6 +40,8 @@ interface Window {
 	/** run-relative t of each frame, ascending */
 	times: Float64Array;
 	abort: AbortController;
+	/** the window reached past the run's known end when it was fetched: frames may have arrived since */
+	partial: boolean;
 }
 
 export interface Lookup {
@@ -132,6 +134,18 @@ export class FrameCache {
 		this.#evict(keep);
 	}
 
+	/**
+	 * A live run grows: the known end moves to `duration`. Windows fetched while they reached past the old end
+	 * are dropped, so they are fetched again, whole, when someone wants them.
+	 */
+	extend(duration: number): void {
+		if (!(duration > this.#o.duration)) return;
+		this.#o.duration = duration;
+		for (const [index, w] of this.#windows) {
+			if (w.partial && w.state !== 'loading') this.#windows.delete(index);
+		}
+	}
+
 	/** true when the window is on hand or on its way */
 	#touch(index: number): boolean {
 		const w = this.#windows.get(index);
@@ -186,7 +200,8 @@ export class FrameCache {
 			failedAt: 0,
 			frames: [],
 			times: new Float64Array(0),
-			abort
+			abort,
+			partial: (index + 1) * this.#o.windowS > this.#o.duration
 		};
 		this.#windows.set(index, w);
 		const from = this.#o.firstT + index * this.#o.windowS;

@@ -133,8 +133,9 @@ export class LiveFollow {
 
 	#show(m: LiveFrameMessage) {
 		const relT = m.t - (this.#firstT ?? m.t);
-		// the timeline spans the run as loaded: the live edge sits at its end
-		const t = Math.min(relT, this.player.run.duration);
+		// the timeline grows with the run, so what arrived while following can be scrubbed afterwards
+		this.player.extend(relT);
+		const t = relT;
 		this.player.frame = m.frame;
 		this.player.frameT = relT;
 		this.player.t = t;

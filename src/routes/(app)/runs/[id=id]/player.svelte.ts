@@ -52,6 +52,8 @@ export class RunPlayer {
 	panel = $state.raw<{ frame: Frame | null; t: number }>({ frame: null, t: 0 });
 
 	readonly run: PlayerRun;
+	/** seconds from the first frame to the last one known; grows while a live run is followed */
+	duration = $state(0);
 	readonly cache: FrameCache | null;
 	readonly settings: MetricSettings;
 	readonly evaluation: FrameEvaluation | null = $derived.by(() =>
@@ -73,6 +75,7 @@ export class RunPlayer {
 			? parseMetricSettings(run.metricSettings, run.stateFields)
 			: null;
 		this.settings = parsed?.ok ? parsed.settings : defaultMetricSettings;
+		this.duration = run.duration;
 		this.t = clamp(t0, 0, run.duration);
 		const rate = run.frameRate && run.frameRate > 0 ? run.frameRate : 10;
 		this.cache =
@@ -166,8 +169,15 @@ export class RunPlayer {
 		return this.cache ? this.cache.range(this.frameT - TRAIL_S, this.frameT) : [];
 	}
 
+	/** the run has frames up to `duration` now (a followed live run); the timeline and the cache grow with it */
+	extend(duration: number) {
+		if (!(duration > this.duration)) return;
+		this.duration = duration;
+		this.cache?.extend(duration);
+	}
+
 	seek(t: number) {
-		this.t = clamp(t, 0, this.run.duration);
+		this.t = clamp(t, 0, this.duration);
 		this.refresh();
 	}
 
@@ -178,7 +188,7 @@ export class RunPlayer {
 
 	play() {
 		if (this.playing) return;
-		if (this.t >= this.run.duration) this.t = 0;
+		if (this.t >= this.duration) this.t = 0;
 		this.playing = true;
 		this.direction = 1;
 		this.#last = performance.now();
@@ -186,9 +196,9 @@ export class RunPlayer {
 			if (!this.playing) return;
 			const dt = Math.min(0.25, (now - this.#last) / 1000);
 			this.#last = now;
-			this.t = Math.min(this.run.duration, this.t + dt * this.speed);
+			this.t = Math.min(this.duration, this.t + dt * this.speed);
 			this.refresh();
-			if (this.t >= this.run.duration) this.playing = false;
+			if (this.t >= this.duration) this.playing = false;
 			else this.#raf = requestAnimationFrame(tick);
 		};
 		this.#raf = requestAnimationFrame(tick);
