@@ -92,9 +92,15 @@ describe('ingest into PostgreSQL', () => {
 		expect(runRes.run.frame_rate_hz as number).toBeCloseTo(20, 5);
 
 		const rows = await sqlClient()<
-			{ n_truth: number | null; gospa: number | null; n_measurements: number | null }[]
-		>`
-			select n_truth, gospa, n_measurements from frames where run_id = ${runId} order by seq limit 3`;
+			{
+				n_truth: number | null;
+				gospa: number | null;
+				n_measurements: number | null;
+				cardinality_sd: number | null;
+			}[]
+		>`select n_truth, gospa, n_measurements, cardinality_sd from frames where run_id = ${runId} order by seq limit 3`;
+		// multi-Bernoulli cardinality variance Σ r(1 − r) (Poisson-binomial variance, standard result): r = 0.9 and 0.4
+		expect(rows[0].cardinality_sd).toBeCloseTo(Math.sqrt(0.9 * 0.1 + 0.4 * 0.6), 12);
 		expect(rows[0].n_truth).toBe(1);
 		expect(rows[0].gospa).toBeGreaterThan(0);
 		expect(rows[1].n_truth).toBeNull(); // truth not reported

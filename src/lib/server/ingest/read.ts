@@ -160,6 +160,7 @@ export const seriesColumns = [
 	'n_estimates',
 	'n_truth',
 	'expected_cardinality',
+	'cardinality_sd',
 	'gospa',
 	'gospa_localization',
 	'gospa_missed',

@@ -252,7 +252,7 @@ export class PostgresIngestStore implements IngestStore {
 type FrameRow = Record<string, string | number | Buffer | Date | null | postgres.JSONValue>;
 
 const frameCopyColumns =
-	'run_id, seq, t, ts, data, n_measurements, n_estimates, n_truth, expected_cardinality, gospa, gospa_localization, gospa_missed, gospa_false, ospa, nees_mean, nees_count, zones';
+	'run_id, seq, t, ts, data, n_measurements, n_estimates, n_truth, expected_cardinality, cardinality_sd, gospa, gospa_localization, gospa_missed, gospa_false, ospa, nees_mean, nees_count, zones';
 
 const copyDeadlineMs = 10_000;
 
@@ -269,6 +269,7 @@ async function copyFrames(tx: postgres.TransactionSql, rows: FrameRow[]): Promis
 			{ kind: 'int4', value: r.n_estimates as number | null },
 			{ kind: 'int4', value: r.n_truth as number | null },
 			{ kind: 'float8', value: r.expected_cardinality as number | null },
+			{ kind: 'float8', value: r.cardinality_sd as number | null },
 			{ kind: 'float8', value: r.gospa as number | null },
 			{ kind: 'float8', value: r.gospa_localization as number | null },
 			{ kind: 'int4', value: r.gospa_missed as number | null },
@@ -299,6 +300,14 @@ async function copyFrames(tx: postgres.TransactionSql, rows: FrameRow[]): Promis
 	}
 }
 
+/** √Σ r(1 − r): the spread of the number of objects under the multi-Bernoulli estimate (r absent counts as 1). */
+function cardinalitySd(frame: FrameToStore['frame']): number | null {
+	if (!frame.estimates) return null;
+	let v = 0;
+	for (const e of frame.estimates) if (e.r !== undefined) v += e.r * (1 - e.r);
+	return Math.sqrt(v);
+}
+
 function frameRow(runId: string, f: FrameToStore, ctx: RunContext): FrameRow {
 	const m = frameMetrics(f.frame, {
 		stateFields: ctx.stateFields,
@@ -323,6 +332,7 @@ function frameRow(runId: string, f: FrameToStore, ctx: RunContext): FrameRow {
 		ospa: m.ospa,
 		nees_mean: m.nees_mean,
 		nees_count: m.nees_count,
+		cardinality_sd: cardinalitySd(f.frame),
 		zones: Object.keys(m.zones).length ? (m.zones as postgres.JSONValue) : null
 	};
 }

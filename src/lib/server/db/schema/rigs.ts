@@ -124,6 +124,7 @@ export const frameColumns = {
 	nEstimates: integer('n_estimates'),
 	nTruth: integer('n_truth'),
 	expectedCardinality: doublePrecision('expected_cardinality'),
+	cardinalitySd: doublePrecision('cardinality_sd'),
 	gospa: doublePrecision('gospa'),
 	gospaLocalization: doublePrecision('gospa_localization'),
 	gospaMissed: integer('gospa_missed'),

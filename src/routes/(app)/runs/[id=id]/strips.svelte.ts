@@ -114,6 +114,11 @@ export class StripsState {
 				a.some((x) => x[i] === null) ? null : a.reduce((acc, x) => acc + (x[i] as number), 0)
 			);
 		const b = neesBounds(1, this.dim);
+		const spread = (k: number) => {
+			const mean = col('expected_cardinality').mean;
+			const sd = col('cardinality_sd').mean;
+			return mean.map((m, i) => (m === null ? null : Math.max(0, m + k * (sd[i] ?? 0))));
+		};
 		const unitP = p === 1 ? 'm' : `m^${p}`;
 		const zoneColors = ['#4F46E5', '#0E7C74', '#C07A12', '#8E2C66'];
 		return [
@@ -130,8 +135,9 @@ export class StripsState {
 						color: '#0E7C74',
 						dash: [4, 3]
 					},
-					{ label: 'E[N] min', values: col('expected_cardinality').min, color: 'transparent' },
-					{ label: 'E[N] max', values: col('expected_cardinality').max, color: 'transparent' }
+					// the cardinality distribution as a band: E[N] ± 2σ, σ² = Σ r(1 − r)
+					{ label: 'E[N] − 2σ', values: spread(-2), color: 'transparent' },
+					{ label: 'E[N] + 2σ', values: spread(2), color: 'transparent' }
 				],
 				bands: [[4, 3, 'rgba(14,124,116,0.15)']]
 			},
