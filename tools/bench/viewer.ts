@@ -14,7 +14,7 @@ import { Packr } from 'msgpackr';
 import postgres from 'postgres';
 import { chromium, type Page } from '@playwright/test';
 import { profileSummary, startProfile } from './viewer-profile';
-import { frameMetrics } from '../../src/lib/metrics/frame';
+import { frameRow } from '../../src/lib/server/ingest/store';
 import { defaultMetricSettings } from '../../src/lib/metrics/settings';
 import { seededRandom } from '../../src/lib/metrics/random';
 import type { Frame } from '../../src/lib/protocol/types';
@@ -90,25 +90,13 @@ async function insertRun(
 		const rows = [];
 		for (let k = a; k < Math.min(count, a + 500); k++) {
 			const f = make(k, t0);
-			const m = frameMetrics(f, ctx);
-			rows.push({
-				run_id: run.id,
-				seq: k,
-				t: f.t,
-				ts: new Date(f.t * 1000),
-				data: packr.pack({ type: 'frame', ...f }),
-				n_measurements: m.n_measurements,
-				n_estimates: m.n_estimates,
-				n_truth: m.n_truth,
-				expected_cardinality: m.expected_cardinality,
-				gospa: m.gospa,
-				gospa_localization: m.gospa_localization,
-				gospa_missed: m.gospa_missed,
-				gospa_false: m.gospa_false,
-				ospa: m.ospa,
-				nees_mean: m.nees_mean,
-				zones: sql.json(m.zones)
-			});
+			// the same row the ingest store writes
+			const row = frameRow(
+				run.id,
+				{ seq: k, t: f.t, frame: f, raw: packr.pack({ type: 'frame', ...f }) },
+				ctx
+			);
+			rows.push({ ...row, zones: row.zones === null ? null : sql.json(row.zones) });
 		}
 		await sql`insert into frames ${sql(rows)}`;
 	}

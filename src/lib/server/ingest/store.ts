@@ -249,7 +249,7 @@ export class PostgresIngestStore implements IngestStore {
 	}
 }
 
-type FrameRow = Record<string, string | number | Buffer | Date | null | postgres.JSONValue>;
+export type FrameRow = Record<string, string | number | Buffer | Date | null | postgres.JSONValue>;
 
 const frameCopyColumns =
 	'run_id, seq, t, ts, data, n_measurements, n_estimates, n_truth, expected_cardinality, cardinality_sd, gospa, gospa_localization, gospa_missed, gospa_false, ospa, nees_mean, nees_count, zones';
@@ -308,7 +308,12 @@ function cardinalitySd(frame: FrameToStore['frame']): number | null {
 	return Math.sqrt(v);
 }
 
-function frameRow(runId: string, f: FrameToStore, ctx: RunContext): FrameRow {
+/** The stored row of one frame: the bytes as sent, set sizes and the per-frame metric columns. */
+export function frameRow(
+	runId: string,
+	f: FrameToStore,
+	ctx: Pick<RunContext, 'stateFields' | 'settings' | 'coords'>
+): FrameRow {
 	const m = frameMetrics(f.frame, {
 		stateFields: ctx.stateFields,
 		settings: ctx.settings,
