@@ -69,19 +69,3 @@ export function sharedPubSub(): PubSub {
 	const holder = globalThis as { [SHARED]?: PubSub };
 	return (holder[SHARED] ??= createInProcessPubSub());
 }
-
-const METRICS = Symbol.for('skein.pubsub.committed-metrics');
-
-function committedMetrics(): WeakMap<Frame, FrameMetrics> {
-	const holder = globalThis as { [METRICS]?: WeakMap<Frame, FrameMetrics> };
-	return (holder[METRICS] ??= new WeakMap());
-}
-
-/** The store notes the metrics it computed for a frame, so the publisher hands them on without recomputing. */
-export function noteFrameMetrics(frame: Frame, metrics: FrameMetrics): void {
-	committedMetrics().set(frame, metrics);
-}
-
-export function frameMetricsOf(frame: Frame): FrameMetrics | null {
-	return committedMetrics().get(frame) ?? null;
-}

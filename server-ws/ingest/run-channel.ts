@@ -6,7 +6,8 @@
 import type { IngestLimits, SessionTiming } from '../../src/lib/protocol/limits';
 import type { Frame, IngestRunState, RunSpec } from '../../src/lib/protocol/types';
 import { runDims, type RunDims } from '../../src/lib/protocol/validate';
-import { frameMetricsOf, type PubSub, type RunEvent } from '../pubsub';
+import { fromMsgpack } from '../../src/lib/protocol/codec';
+import type { PubSub, RunEvent } from '../pubsub';
 import type { FrameToStore, IngestStore, QuarantinedToStore } from './store';
 
 export interface ChannelDeps {
@@ -153,14 +154,17 @@ export class RunChannel {
 			});
 		}
 		for (const f of frames) {
-			const frame: Frame = f.frame;
+			let decoded = f.decoded;
 			pubsub.publish(this.runId, {
 				kind: 'frame',
 				runId: this.runId,
 				seq: f.seq,
 				t: f.t,
-				frame,
-				metrics: frameMetricsOf(frame)
+				// frames the fast path read are decoded only if someone watching needs them
+				get frame(): Frame {
+					return (decoded ??= fromMsgpack(f.raw) as Frame);
+				},
+				metrics: f.metrics ?? null
 			});
 		}
 	}

@@ -14,6 +14,7 @@ import {
 	type ErrorCode,
 	type ServerMessage
 } from '../../src/lib/protocol/types';
+import { readFrame } from '../../src/lib/protocol/frame-reader';
 import { formatIssue, readSeq, validateFrame, validateOpen } from '../../src/lib/protocol/validate';
 import { RunChannel, type ChannelDeps, type ChannelListener } from './run-channel';
 import type { RigRef } from './store';
@@ -68,6 +69,24 @@ export class IngestSession implements ChannelListener {
 			this.end(CloseCode.tooLarge, 'message too large');
 			return;
 		}
+		const ch = this.#channel;
+		if (binary && ch !== null && this.#state === 'open') {
+			// the fast path: a valid MessagePack frame is read straight from its bytes; anything else is decided below
+			const read = readFrame(data, ch.dims, limits);
+			if (read !== null) {
+				this.#ackEncoding = 'msgpack';
+				if (this.#sequenced(ch, read.seq, 'msgpack')) {
+					if (ch.lastT !== null && read.t < ch.lastT) {
+						const reason = `t: ${read.t} is before the previous frame's t ${ch.lastT}`;
+						ch.quarantine({ seq: read.seq, raw: data, encoding: 'msgpack', reason });
+						this.#sendError('msgpack', 'invalid_frame', reason, read.seq);
+					} else {
+						ch.accept({ seq: read.seq, t: read.t, raw: data, frame: read, decoded: null });
+					}
+				}
+				return;
+			}
+		}
 		const decoded = decodeMessage(data, binary, limits.maxDepth);
 		if (!decoded.ok) {
 			this.#sendError(encoding, 'bad_message', decoded.reason);
@@ -101,31 +120,7 @@ export class IngestSession implements ChannelListener {
 			this.#sendError(d.encoding, 'invalid_frame', message);
 			return;
 		}
-		if (seq < ch.expected) {
-			// Already received; acknowledged now if durable, else by the ack that follows its commit.
-			if (seq < ch.committedNext) this.#reackSoon();
-			return;
-		}
-		if (seq > ch.expected) {
-			this.#send(d.encoding, {
-				type: 'error',
-				code: 'seq_gap',
-				message: `expected seq ${ch.expected}, got ${seq}`,
-				seq,
-				next_seq: ch.expected
-			});
-			return;
-		}
-		const window = this.#ctx.timing.window;
-		if (seq > ch.committedNext - 1 + window) {
-			this.#sendError(
-				d.encoding,
-				'rate_limited',
-				`seq ${seq} is more than ${window} frames ahead of the last ack; resend after the next ack`,
-				seq
-			);
-			return;
-		}
+		if (!this.#sequenced(ch, seq, d.encoding)) return;
 		const checked = validateFrame(msg, ch.dims, this.#ctx.limits);
 		if (!checked.ok) {
 			this.#quarantine(ch, d, seq, formatIssue(checked));
@@ -136,7 +131,37 @@ export class IngestSession implements ChannelListener {
 			this.#quarantine(ch, d, seq, `t: ${frame.t} is before the previous frame's t ${ch.lastT}`);
 			return;
 		}
-		ch.accept({ seq, t: frame.t, raw: storedFrameBytes(d), frame });
+		ch.accept({ seq, t: frame.t, raw: storedFrameBytes(d), frame, decoded: frame });
+	}
+
+	/** The sequence rules: true when `seq` is the next one and within the window; otherwise answered here. */
+	#sequenced(ch: RunChannel, seq: number, encoding: Encoding): boolean {
+		if (seq < ch.expected) {
+			// Already received; acknowledged now if durable, else by the ack that follows its commit.
+			if (seq < ch.committedNext) this.#reackSoon();
+			return false;
+		}
+		if (seq > ch.expected) {
+			this.#send(encoding, {
+				type: 'error',
+				code: 'seq_gap',
+				message: `expected seq ${ch.expected}, got ${seq}`,
+				seq,
+				next_seq: ch.expected
+			});
+			return false;
+		}
+		const window = this.#ctx.timing.window;
+		if (seq > ch.committedNext - 1 + window) {
+			this.#sendError(
+				encoding,
+				'rate_limited',
+				`seq ${seq} is more than ${window} frames ahead of the last ack; resend after the next ack`,
+				seq
+			);
+			return false;
+		}
+		return true;
 	}
 
 	#quarantine(ch: RunChannel, d: DecodedOk, seq: number, reason: string): void {

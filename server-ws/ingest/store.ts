@@ -2,6 +2,7 @@
  * What the ingest socket needs from storage. The socket logic knows nothing about the database;
  * the PostgreSQL implementation lives in src/lib/server/ingest/.
  */
+import type { FrameMetrics, MetricFrame } from '../../src/lib/metrics/frame';
 import type { Encoding, Frame, IngestRunState, RunSpec } from '../../src/lib/protocol/types';
 
 /** The rig a feed key belongs to. */
@@ -47,8 +48,12 @@ export interface FrameToStore {
 	t: number;
 	/** the MessagePack encoding of the frame map, as the rig sent it when it sent MessagePack */
 	raw: Uint8Array;
-	/** validated; an absent set is undefined, a reported empty set is [] */
-	frame: Frame;
+	/** validated, as the metrics read it; an absent set is undefined, a reported empty set has length 0 */
+	frame: MetricFrame;
+	/** the whole decoded message when the general path decoded it; null when the fast path read only `frame` */
+	decoded: Frame | null;
+	/** set by the store when it computes the frame's metric columns; handed on to live viewers */
+	metrics?: FrameMetrics;
 }
 
 export interface QuarantinedToStore {

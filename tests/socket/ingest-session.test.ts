@@ -5,7 +5,7 @@ import { closeSocketsForKey } from '../../server-ws/ingest/endpoint';
 import type { RunEvent } from '../../server-ws/pubsub';
 import { SkeinAuthError, SkeinRigClient, type RigClientEvent } from '../../src/lib/protocol/client';
 import { fromMsgpack } from '../../src/lib/protocol/codec';
-import type { Encoding } from '../../src/lib/protocol/types';
+import type { Encoding, Frame } from '../../src/lib/protocol/types';
 import {
 	KEY,
 	OTHER_KEY,
@@ -525,7 +525,10 @@ describe('the rig client', () => {
 		expect(result).toEqual({ run_id: runId, frames: total });
 		const run = s.store.run(runId);
 		expect(s.store.seqs(runId)).toEqual(Array.from({ length: total }, (_, i) => i));
-		for (let i = 0; i < total; i++) expect(run.frames.get(i)?.frame.estimates?.[0].id).toBe(i);
+		for (let i = 0; i < total; i++) {
+			const stored = fromMsgpack(run.frames.get(i)?.raw ?? new Uint8Array()) as Frame;
+			expect(stored.estimates?.[0].id).toBe(i);
+		}
 		expect(run.quarantine.size).toBe(0);
 		expect(s.store.violations).toEqual([]);
 	});

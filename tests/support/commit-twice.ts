@@ -22,6 +22,7 @@ const batch = sent.map((frame) => ({
 	seq: frame.seq,
 	t: frame.t,
 	frame,
+	decoded: frame,
 	raw: toMsgpack({ type: 'frame', ...frame })
 }));
 await store.commitFrames(opened.runId, batch, []);

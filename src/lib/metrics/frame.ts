@@ -1,6 +1,6 @@
 /** Per-frame metrics as computed at ingest, and the detail behind them for the run screen. */
-import type { Estimate, Frame, TruthObject } from '../protocol/types';
-import { cardinalityStats, type CardinalityStats } from './cardinality';
+import type { EgoPose } from '../protocol/types';
+import { cardinalityStats, existence, type CardinalityStats } from './cardinality';
 import { nees as neesOf, subBlock } from './consistency';
 import { gospaFromSquaredDistances, squaredDistance, type GospaResult } from './gospa';
 import type { MetricSettings } from './settings';
@@ -12,6 +12,27 @@ export interface FrameContext {
 	settings: MetricSettings;
 	/** coordinates the run reports objects in; default 'world' */
 	coords?: Coords;
+}
+
+/** What the metrics read of a frame; a decoded `Frame` is one, and so is what the ingest fast path reads. */
+export interface MetricFrame {
+	seq?: number;
+	t?: number;
+	ego?: EgoPose;
+	/** only the count is read */
+	measurements?: { readonly length: number };
+	estimates?: readonly MetricEstimate[];
+	truth?: readonly MetricTruth[];
+}
+
+export interface MetricEstimate {
+	x: readonly number[];
+	P?: readonly number[];
+	r?: number;
+}
+
+export interface MetricTruth {
+	x: readonly number[];
 }
 
 export interface FrameMetrics {
@@ -58,18 +79,24 @@ export function neesDimension(ctx: FrameContext): number {
 	return ctx.settings.nees === 'state' ? ctx.stateFields.length : 2;
 }
 
-export function frameMetrics(frame: Frame, ctx: FrameContext): FrameMetrics {
-	return evaluateFrame(frame, ctx).metrics;
+export function frameMetrics(frame: MetricFrame, ctx: FrameContext): FrameMetrics {
+	return evaluateFrame(frame, ctx, stateLayout(ctx.stateFields), false).metrics;
 }
 
+/** `distribution`: whether to compute the cardinality distribution (the run screen draws it; rows do not store it). */
 export function evaluateFrame(
-	frame: Frame,
+	frame: MetricFrame,
 	ctx: FrameContext,
-	layout = stateLayout(ctx.stateFields)
+	layout = stateLayout(ctx.stateFields),
+	distribution = true
 ): FrameEvaluation {
 	const { settings } = ctx;
 	const { truth, estimates } = frame;
-	const cardinality = estimates ? cardinalityStats(estimates) : null;
+	const cardinality = !estimates
+		? null
+		: distribution
+			? cardinalityStats(estimates)
+			: cardinalityMoments(estimates);
 	const g = truth && estimates ? frameGospa(truth, estimates, settings, layout) : null;
 
 	const nees: (number | null)[] = estimates ? estimates.map(() => null) : [];
@@ -125,10 +152,22 @@ export function evaluateFrame(
 	};
 }
 
+/** Mean and variance alone, summed in the same order as cardinalityStats; the distribution is left empty. */
+function cardinalityMoments(estimates: readonly { r?: number }[]): CardinalityStats {
+	let mean = 0;
+	let variance = 0;
+	for (const e of estimates) {
+		const r = existence(e.r);
+		mean += r;
+		variance += r * (1 - r);
+	}
+	return { mean, variance, distribution: new Float64Array(0) };
+}
+
 /** GOSPA on positions or on the weighted full state; null when truth lacks the fields needed. */
 function frameGospa(
-	truth: readonly TruthObject[],
-	estimates: readonly Estimate[],
+	truth: readonly MetricTruth[],
+	estimates: readonly MetricEstimate[],
 	settings: MetricSettings,
 	layout: StateLayout
 ): GospaResult | null {
@@ -163,8 +202,8 @@ function frameGospa(
 }
 
 function pairNees(
-	t: TruthObject,
-	e: Estimate,
+	t: MetricTruth,
+	e: MetricEstimate,
 	mode: 'position' | 'state',
 	layout: StateLayout
 ): number | null {
@@ -180,7 +219,7 @@ function pairNees(
 	return neesOf([e.x[ix] - t.x[ix], e.x[iy] - t.x[iy]], subBlock(e.P, dim, [ix, iy]));
 }
 
-function planarOf(e: Estimate, layout: StateLayout): PlanarObject {
+function planarOf(e: MetricEstimate, layout: StateLayout): PlanarObject {
 	const { dim, ix, iy } = layout;
 	const o: PlanarObject = { mean: [e.x[ix], e.x[iy]], r: e.r };
 	if (e.P && e.P.length === dim * dim)

@@ -104,6 +104,21 @@ function checkCovariance(v: unknown, dim: number, tol: number, name: string): Is
 		const d = m[i * dim + i];
 		if (d < 0) return issue(`[${i * dim + i}]`, `negative variance ${d} on the diagonal`);
 	}
+	const k = asymmetricAt(m, dim, tol);
+	if (k < 0) return null;
+	const i = Math.floor(k / dim);
+	const j = k % dim;
+	return issue(
+		`[${k}]`,
+		`not symmetric: ${name}[${i},${j}] = ${m[k]} but ${name}[${j},${i}] = ${m[j * dim + i]} (relative tolerance ${tol})`
+	);
+}
+
+/**
+ * The first upper-triangle index i·dim + j where M[i,j] and M[j,i] differ by more than the tolerance, or -1:
+ * |M[i,j] − M[j,i]| ≤ tol · max(|M[i,j]|, |M[j,i]|, √(M[i,i]·M[j,j])).
+ */
+export function asymmetricAt(m: ArrayLike<number>, dim: number, tol: number): number {
 	for (let i = 0; i < dim; i++) {
 		for (let j = i + 1; j < dim; j++) {
 			const a = m[i * dim + j];
@@ -111,15 +126,10 @@ function checkCovariance(v: unknown, dim: number, tol: number, name: string): Is
 			const diff = Math.abs(a - b);
 			if (diff === 0) continue;
 			const scale = Math.max(Math.abs(a), Math.abs(b), Math.sqrt(m[i * dim + i] * m[j * dim + j]));
-			if (diff > tol * scale) {
-				return issue(
-					`[${i * dim + j}]`,
-					`not symmetric: ${name}[${i},${j}] = ${a} but ${name}[${j},${i}] = ${b} (relative tolerance ${tol})`
-				);
-			}
+			if (diff > tol * scale) return i * dim + j;
 		}
 	}
-	return null;
+	return -1;
 }
 
 function checkId(v: unknown, limits: IngestLimits): string | null {

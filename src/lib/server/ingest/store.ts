@@ -5,6 +5,7 @@
  */
 import type postgres from 'postgres';
 import { frameMetrics, defaultMetricSettings, type MetricSettings } from '$lib/metrics';
+import type { MetricFrame } from '$lib/metrics/frame';
 import type { IngestRunState, RunSpec } from '$lib/protocol/types';
 import type {
 	FrameToStore,
@@ -14,7 +15,6 @@ import type {
 	OpenRunResult,
 	QuarantinedToStore
 } from '../../../../server-ws/ingest/store';
-import { noteFrameMetrics } from '../../../../server-ws/pubsub';
 import { resolveFeedKey } from '$server/rigs';
 import { sqlClient } from '$server/db';
 import { BinaryCopyWriter } from './copy-binary';
@@ -301,7 +301,7 @@ async function copyFrames(tx: postgres.TransactionSql, rows: FrameRow[]): Promis
 }
 
 /** √Σ r(1 − r): the spread of the number of objects under the multi-Bernoulli estimate (r absent counts as 1). */
-function cardinalitySd(frame: FrameToStore['frame']): number | null {
+function cardinalitySd(frame: MetricFrame): number | null {
 	if (!frame.estimates) return null;
 	let v = 0;
 	for (const e of frame.estimates) if (e.r !== undefined) v += e.r * (1 - e.r);
@@ -319,7 +319,7 @@ export function frameRow(
 		settings: ctx.settings,
 		coords: ctx.coords
 	});
-	noteFrameMetrics(f.frame, m);
+	f.metrics = m;
 	return {
 		run_id: runId,
 		seq: f.seq,
