@@ -93,7 +93,7 @@ async function insertRun(
 			// the same row the ingest store writes
 			const row = frameRow(
 				run.id,
-				{ seq: k, t: f.t, frame: f, decoded: f, raw: packr.pack({ type: 'frame', ...f }) },
+				{ seq: k, t: f.t, frame: f, raw: packr.pack({ type: 'frame', ...f }) },
 				ctx
 			);
 			rows.push({ ...row, zones: row.zones === null ? null : sql.json(row.zones) });

@@ -4,8 +4,7 @@
  * run's counters commit together, so an ack never runs ahead of what is durable.
  */
 import type postgres from 'postgres';
-import { frameMetrics, defaultMetricSettings, type MetricSettings } from '$lib/metrics';
-import type { MetricFrame } from '$lib/metrics/frame';
+import { defaultMetricSettings, type MetricSettings } from '$lib/metrics';
 import type { IngestRunState, RunSpec } from '$lib/protocol/types';
 import type {
 	FrameToStore,
@@ -17,11 +16,14 @@ import type {
 } from '../../../../server-ws/ingest/store';
 import { resolveFeedKey } from '$server/rigs';
 import { sqlClient } from '$server/db';
-import { BinaryCopyWriter } from './copy-binary';
+import { copyHeader, copyTrailer, frameCopyColumns, frameTuple, uuidBytes } from './copy-binary';
+import { cardinalitySd, frameMetricsFor, rowOf } from './frame-rows';
 import { ensurePartitionsFor } from './partitions';
+import { RowPool, type PreparedRow } from './row-pool';
 
 interface RunContext {
 	stateFields: string[];
+	measurementFields: string[];
 	coords: 'world' | 'ego';
 	settings: MetricSettings;
 	keyId: string | null;
@@ -65,10 +67,16 @@ function specOf(row: RunRow): RunSpec {
 export class PostgresIngestStore implements IngestStore {
 	#sql: postgres.Sql;
 	#runs = new Map<string, RunContext>();
-	#prepared = new WeakMap<FrameToStore, FrameRow>();
+	#prepared = new WeakMap<FrameToStore, Promise<PreparedRow>>();
+	#pool: RowPool | null;
 
-	constructor(sql: postgres.Sql = sqlClient()) {
+	/** `rowWorker`: compute rows in a worker thread (INGEST_ROW_WORKER=off computes them inline). */
+	constructor(
+		sql: postgres.Sql = sqlClient(),
+		rowWorker: boolean = process.env.INGEST_ROW_WORKER !== 'off'
+	) {
 		this.#sql = sql;
+		this.#pool = rowWorker ? new RowPool() : null;
 	}
 
 	async resolveKey(key: string): Promise<KeyResolution> {
@@ -107,6 +115,7 @@ export class PostgresIngestStore implements IngestStore {
 			return { ok: false, reason: 'this run was imported and cannot be streamed to' };
 		this.#runs.set(row.id, {
 			stateFields: row.state_fields,
+			measurementFields: row.measurement_fields,
 			coords: row.coords,
 			settings: row.metric_settings ?? defaultMetricSettings,
 			keyId: req.rig.keyId,
@@ -131,6 +140,7 @@ export class PostgresIngestStore implements IngestStore {
 			const [row] = await this.#sql<RunRow[]>`select * from runs where id = ${runId}`;
 			ctx = {
 				stateFields: row.state_fields,
+				measurementFields: row.measurement_fields,
 				coords: row.coords,
 				settings: row.metric_settings ?? defaultMetricSettings,
 				keyId: null,
@@ -148,10 +158,30 @@ export class PostgresIngestStore implements IngestStore {
 		return ctx;
 	}
 
-	/** Per-frame metrics are computed as frames arrive, overlapping the previous batch's commit. */
+	/** Per-frame rows are computed as frames arrive, overlapping the previous batch's commit. */
 	prepareFrame(runId: string, frame: FrameToStore): void {
 		const ctx = this.#runs.get(runId);
-		if (ctx && !this.#prepared.has(frame)) this.#prepared.set(frame, frameRow(runId, frame, ctx));
+		if (ctx && !this.#prepared.has(frame))
+			this.#prepared.set(frame, this.#prepare(runId, frame, ctx));
+	}
+
+	#prepare(runId: string, f: FrameToStore, ctx: RunContext): Promise<PreparedRow> {
+		const rowCtx = { stateFields: ctx.stateFields, settings: ctx.settings, coords: ctx.coords };
+		if (this.#pool === null) {
+			const metrics = frameMetricsFor(f.frame, rowCtx);
+			const sd = cardinalitySd(f.frame);
+			f.metrics = metrics;
+			const tuple = frameTuple(uuidBytes(runId), rowOf(runId, f, metrics, sd));
+			return Promise.resolve({ tuple, metrics, cardinalitySd: sd });
+		}
+		const dims = { stateDim: ctx.stateFields.length, measDim: ctx.measurementFields.length };
+		const prepared = this.#pool.prepare(runId, rowCtx, dims, f).then((p) => {
+			f.metrics = p.metrics;
+			return p;
+		});
+		// a batch dropped after a failed commit is never awaited: its failure must not go unhandled
+		prepared.catch(() => {});
+		return prepared;
 	}
 
 	async commitFrames(
@@ -161,7 +191,9 @@ export class PostgresIngestStore implements IngestStore {
 	): Promise<void> {
 		if (frames.length === 0 && quarantined.length === 0) return;
 		const ctx = await this.#context(runId);
-		const rows = frames.map((f) => this.#prepared.get(f) ?? frameRow(runId, f, ctx));
+		const prepared = await Promise.all(
+			frames.map((f) => this.#prepared.get(f) ?? this.#prepare(runId, f, ctx))
+		);
 		await ensurePartitionsFor(
 			this.#sql,
 			frames.map((f) => f.t)
@@ -175,14 +207,17 @@ export class PostgresIngestStore implements IngestStore {
 		const commit = (viaCopy: boolean) =>
 			this.#sql.begin(async (tx) => {
 				let stored = 0;
-				if (rows.length && viaCopy) {
-					await copyFrames(tx, rows);
-					stored = rows.length;
-				} else if (rows.length) {
-					const values = rows.map((r) => ({
-						...r,
-						zones: r.zones === null ? null : tx.json(r.zones as postgres.JSONValue)
-					}));
+				if (frames.length && viaCopy) {
+					await copyFrames(
+						tx,
+						prepared.map((p) => p.tuple)
+					);
+					stored = frames.length;
+				} else if (frames.length) {
+					const values = frames.map((f, i) => {
+						const r = rowOf(runId, f, prepared[i].metrics, prepared[i].cardinalitySd);
+						return { ...r, zones: r.zones === null ? null : tx.json(r.zones) };
+					});
 					const res = await tx`insert into frames ${tx(values)} on conflict do nothing`;
 					stored = res.count;
 				}
@@ -249,37 +284,9 @@ export class PostgresIngestStore implements IngestStore {
 	}
 }
 
-export type FrameRow = Record<string, string | number | Buffer | Date | null | postgres.JSONValue>;
-
-const frameCopyColumns =
-	'run_id, seq, t, ts, data, n_measurements, n_estimates, n_truth, expected_cardinality, cardinality_sd, gospa, gospa_localization, gospa_missed, gospa_false, ospa, nees_mean, nees_count, zones';
-
 const copyDeadlineMs = 10_000;
 
-async function copyFrames(tx: postgres.TransactionSql, rows: FrameRow[]): Promise<void> {
-	const w = new BinaryCopyWriter();
-	for (const r of rows) {
-		w.row([
-			{ kind: 'uuid', value: r.run_id as string },
-			{ kind: 'int8', value: r.seq as number },
-			{ kind: 'float8', value: r.t as number },
-			{ kind: 'timestamptz', value: r.ts as Date },
-			{ kind: 'bytea', value: r.data as Buffer },
-			{ kind: 'int4', value: r.n_measurements as number | null },
-			{ kind: 'int4', value: r.n_estimates as number | null },
-			{ kind: 'int4', value: r.n_truth as number | null },
-			{ kind: 'float8', value: r.expected_cardinality as number | null },
-			{ kind: 'float8', value: r.cardinality_sd as number | null },
-			{ kind: 'float8', value: r.gospa as number | null },
-			{ kind: 'float8', value: r.gospa_localization as number | null },
-			{ kind: 'int4', value: r.gospa_missed as number | null },
-			{ kind: 'int4', value: r.gospa_false as number | null },
-			{ kind: 'float8', value: r.ospa as number | null },
-			{ kind: 'float8', value: r.nees_mean as number | null },
-			{ kind: 'int4', value: r.nees_count as number | null },
-			{ kind: 'jsonb', value: r.zones === null ? null : JSON.stringify(r.zones) }
-		]);
-	}
+async function copyFrames(tx: postgres.TransactionSql, tuples: Uint8Array[]): Promise<void> {
 	const stream = await tx
 		.unsafe(`copy frames (${frameCopyColumns}) from stdin (format binary)`)
 		.writable();
@@ -293,51 +300,11 @@ async function copyFrames(tx: postgres.TransactionSql, rows: FrameRow[]): Promis
 				copyDeadlineMs
 			);
 			stream.on('error', reject);
-			stream.end(w.finish(), () => resolve());
+			stream.end(Buffer.concat([copyHeader(), ...tuples, copyTrailer()]), () => resolve());
 		});
 	} finally {
 		clearTimeout(timer);
 	}
 }
 
-/** √Σ r(1 − r): the spread of the number of objects under the multi-Bernoulli estimate (r absent counts as 1). */
-function cardinalitySd(frame: MetricFrame): number | null {
-	if (!frame.estimates) return null;
-	let v = 0;
-	for (const e of frame.estimates) if (e.r !== undefined) v += e.r * (1 - e.r);
-	return Math.sqrt(v);
-}
-
-/** The stored row of one frame: the bytes as sent, set sizes and the per-frame metric columns. */
-export function frameRow(
-	runId: string,
-	f: FrameToStore,
-	ctx: Pick<RunContext, 'stateFields' | 'settings' | 'coords'>
-): FrameRow {
-	const m = frameMetrics(f.frame, {
-		stateFields: ctx.stateFields,
-		settings: ctx.settings,
-		coords: ctx.coords
-	});
-	f.metrics = m;
-	return {
-		run_id: runId,
-		seq: f.seq,
-		t: f.t,
-		ts: new Date(f.t * 1000),
-		data: Buffer.from(f.raw.buffer, f.raw.byteOffset, f.raw.byteLength),
-		n_measurements: m.n_measurements,
-		n_estimates: m.n_estimates,
-		n_truth: m.n_truth,
-		expected_cardinality: m.expected_cardinality,
-		gospa: m.gospa,
-		gospa_localization: m.gospa_localization,
-		gospa_missed: m.gospa_missed,
-		gospa_false: m.gospa_false,
-		ospa: m.ospa,
-		nees_mean: m.nees_mean,
-		nees_count: m.nees_count,
-		cardinality_sd: cardinalitySd(f.frame),
-		zones: Object.keys(m.zones).length ? (m.zones as postgres.JSONValue) : null
-	};
-}
+export { frameRow, type FrameRow } from './frame-rows';

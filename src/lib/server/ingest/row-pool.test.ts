@@ -1,0 +1,114 @@
+/**
+ * Rows computed in the worker thread must be byte for byte the rows computed inline, and a failing worker
+ * must fail the frames waiting for it, not lose them silently or hang.
+ */
+import { Packr } from 'msgpackr';
+import { afterAll, describe, expect, it } from 'vitest';
+import { defaultMetricSettings, type MetricSettings } from '$lib/metrics';
+import { seededRandom } from '$lib/metrics/random';
+import { fromMsgpack } from '$lib/protocol/codec';
+import type { Frame } from '$lib/protocol/types';
+import { frameTuple, uuidBytes } from './copy-binary';
+import { frameRow, type RowContext } from './frame-rows';
+import { RowPool } from './row-pool';
+
+const runId = '0b6f3a52-8a11-4c3e-9a55-4d2f1f0c7e01';
+const packr = new Packr({ useRecords: false });
+const dims = { stateDim: 4, measDim: 2 };
+
+function frame(seq: number, rnd: () => number): Record<string, unknown> {
+	const est = Array.from({ length: Math.floor(rnd() * 8) }, (_, i) => ({
+		id: i,
+		x: [rnd() * 40 - 20, rnd() * 10 - 5, rnd(), rnd()],
+		P: [1, 0.1, 0, 0, 0.1, 1, 0, 0, 0, 0, 1, 0, 0, 0, 0, 1],
+		r: rnd()
+	}));
+	const f: Record<string, unknown> = {
+		type: 'frame',
+		seq,
+		t: 1_790_000_000 + seq * 0.05,
+		estimates: est,
+		truth: est.map((e) => ({ x: e.x.map((v) => v + rnd() - 0.5) }))
+	};
+	if (rnd() < 0.8) f.ego = { x: rnd() * 5, y: rnd() * 5, heading: rnd() };
+	if (rnd() < 0.5) f.measurements = [{ z: [1, 2] }];
+	return f;
+}
+
+const pools: RowPool[] = [];
+afterAll(async () => {
+	for (const p of pools) await p.close();
+});
+
+describe('RowPool', () => {
+	it('computes the same tuples and metrics as the inline path, for every zone setting', async () => {
+		const pool = new RowPool();
+		pools.push(pool);
+		const rnd = seededRandom(9);
+		const settings: MetricSettings[] = [
+			defaultMetricSettings,
+			{ ...defaultMetricSettings, c: 2, p: 1, zones: [] }
+		];
+		for (const s of settings) {
+			for (const coords of ['world', 'ego'] as const) {
+				const ctx: RowContext = { stateFields: ['x', 'y', 'vx', 'vy'], settings: s, coords };
+				const frames = Array.from({ length: 50 }, (_, i) => frame(i, rnd));
+				const prepared = await Promise.all(
+					frames.map((f) =>
+						pool.prepare(runId, ctx, dims, {
+							seq: f.seq as number,
+							t: f.t as number,
+							raw: packr.pack(f)
+						})
+					)
+				);
+				frames.forEach((f, i) => {
+					const raw = packr.pack(f);
+					const decoded = fromMsgpack(raw) as Frame;
+					const row = frameRow(runId, { seq: decoded.seq, t: decoded.t, raw, frame: decoded }, ctx);
+					expect(Buffer.from(prepared[i].tuple)).toEqual(frameTuple(uuidBytes(runId), row));
+					expect(prepared[i].metrics.gospa).toBe(row.gospa);
+					expect(prepared[i].metrics.zones).toEqual(row.zones ?? {});
+					expect(prepared[i].cardinalitySd).toBe(row.cardinality_sd);
+				});
+			}
+		}
+	});
+
+	it('decodes a frame the fast reader declines (a set over the default limit) instead of failing', async () => {
+		const pool = new RowPool();
+		pools.push(pool);
+		const big = {
+			type: 'frame',
+			seq: 0,
+			t: 1,
+			truth: Array.from({ length: 5001 }, (_, i) => ({ x: [i, 0, 0, 0] }))
+		};
+		const ctx: RowContext = {
+			stateFields: ['x', 'y', 'vx', 'vy'],
+			settings: defaultMetricSettings,
+			coords: 'world'
+		};
+		const p = await pool.prepare(runId, ctx, dims, { seq: 0, t: 1, raw: packr.pack(big) });
+		expect(p.metrics.n_truth).toBe(5001);
+	});
+
+	it('fails the frames waiting for a worker that dies, and starts a new worker for the next ones', async () => {
+		const pool = new RowPool();
+		pools.push(pool);
+		const ctx: RowContext = {
+			stateFields: ['x', 'y', 'vx', 'vy'],
+			settings: defaultMetricSettings,
+			coords: 'world'
+		};
+		const raw = packr.pack(frame(0, seededRandom(1)));
+		// warm up, so the worker is running
+		await pool.prepare(runId, ctx, dims, { seq: 0, t: 1, raw });
+		const waiting = pool.prepare(runId, ctx, dims, { seq: 1, t: 1, raw });
+		await new Promise((r) => setImmediate(r)); // the batch is posted
+		await pool.close();
+		await expect(waiting).rejects.toThrow(/row worker/);
+		const again = await pool.prepare(runId, ctx, dims, { seq: 2, t: 1, raw });
+		expect(again.tuple.length).toBeGreaterThan(0);
+	});
+});

@@ -1,0 +1,58 @@
+/**
+ * Worker thread of the ingest store: computes the rows of accepted frames (per-frame metrics and the binary
+ * COPY tuple) off the thread that serves the sockets. Frames reach it already validated; it reads them again
+ * with the fast reader, or decodes them when that declines (e.g. a set larger than the default limits).
+ * Messages: see row-pool.ts.
+ */
+import { parentPort } from 'node:worker_threads';
+import { fromMsgpack } from '$lib/protocol/codec';
+import { readFrame } from '$lib/protocol/frame-reader';
+import { DEFAULT_LIMITS } from '$lib/protocol/limits';
+import type { MetricFrame } from '$lib/metrics/frame';
+import { frameTuple, uuidBytes } from './copy-binary';
+import { cardinalitySd, frameMetricsFor, rowOf } from './frame-rows';
+import { packMetrics, type RowBatch, type RowBatchResult } from './row-pool';
+
+const limits = { ...DEFAULT_LIMITS, maxSetSize: Number.MAX_SAFE_INTEGER };
+
+function rows(batch: RowBatch): RowBatchResult {
+	const runIds = batch.runs.map((r) => uuidBytes(r.runId));
+	const data = new Uint8Array(batch.data);
+	const tuples: Buffer[] = [];
+	const ends = new Int32Array(batch.seq.length);
+	const metrics: number[] = [];
+	let total = 0;
+	for (let i = 0; i < batch.seq.length; i++) {
+		const run = batch.runs[batch.run[i]];
+		const raw = data.subarray(batch.start[i], batch.start[i] + batch.length[i]);
+		const frame: MetricFrame =
+			readFrame(raw, run.dims, limits) ?? (fromMsgpack(raw) as MetricFrame);
+		const m = frameMetricsFor(frame, run.ctx);
+		const sd = cardinalitySd(frame);
+		const tuple = frameTuple(
+			runIds[batch.run[i]],
+			rowOf(run.runId, { seq: batch.seq[i], t: batch.t[i], raw }, m, sd)
+		);
+		tuples.push(tuple);
+		total += tuple.length;
+		ends[i] = total;
+		packMetrics(metrics, m, sd, run.ctx.settings.zones);
+	}
+	const out = new Uint8Array(total);
+	let o = 0;
+	for (const tuple of tuples) {
+		out.set(tuple, o);
+		o += tuple.length;
+	}
+	return { id: batch.id, tuples: out.buffer, ends, metrics: Float64Array.from(metrics) };
+}
+
+parentPort?.on('message', (batch: RowBatch) => {
+	let result: RowBatchResult | { id: number; error: string };
+	try {
+		result = rows(batch);
+	} catch (e) {
+		result = { id: batch.id, error: e instanceof Error ? e.message : String(e) };
+	}
+	parentPort?.postMessage(result, 'tuples' in result ? [result.tuples] : []);
+});
