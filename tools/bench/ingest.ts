@@ -178,7 +178,7 @@ async function main() {
 		{ DATABASE_URL: dbUrl.toString(), LOG_LEVEL: 'error' },
 		process.env.BENCH_PROFILE ? ['--cpu-prof', `--cpu-prof-dir=${process.env.BENCH_PROFILE}`] : []
 	);
-	const wsUrl = app.url.replace('http', 'ws') + '/ingest/v1';
+	let wsUrl = app.url.replace('http', 'ws') + '/ingest/v1';
 	const r = rng(1);
 	const templates = Array.from({ length: 64 }, (_, i) => template(benchFrame(i, 0, r)));
 	const check = packr.unpack(templates[0]) as Frame;
@@ -225,6 +225,19 @@ async function main() {
 	await config('16 rigs, as fast as acks allow', 16);
 	await config('4 rigs × 250 Hz = 1,000 frames/s', 4, 250);
 	await app.stop();
+
+	// what the per-frame metric columns cost: the same, rows stored with set sizes only
+	const bare = await startApp({
+		DATABASE_URL: dbUrl.toString(),
+		LOG_LEVEL: 'error',
+		INGEST_METRIC_COLUMNS: 'off'
+	});
+	wsUrl = bare.url.replace('http', 'ws') + '/ingest/v1';
+	console.log(
+		'\nthe same without the metric columns (INGEST_METRIC_COLUMNS=off, a measurement switch):'
+	);
+	const fourBare = await config('4 rigs, as fast as acks allow', 4);
+	await bare.stop();
 
 	// the same rows the store writes (metrics included), COPY'd straight into the same table
 	console.log(
@@ -342,6 +355,9 @@ async function main() {
 	);
 	console.log(
 		`\nratio, 4 rigs through the socket / the faster raw COPY: ${(four.fps / copyRate).toFixed(2)} (target ≥ 0.6)`
+	);
+	console.log(
+		`ratio without the metric columns: ${(fourBare.fps / copyRate).toFixed(2)}; the metric columns cost ${((1 - four.fps / fourBare.fps) * 100).toFixed(0)} % of the 4-rig rate`
 	);
 	console.log(`targets: ≥ 5,000 frames/s with 4 rigs; p99 ack latency < 100 ms at 1,000 frames/s`);
 	await sql.end();

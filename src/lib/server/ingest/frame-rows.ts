@@ -10,6 +10,11 @@ export interface RowContext {
 	stateFields: string[];
 	settings: MetricSettings;
 	coords: Coords;
+	/**
+	 * false: set sizes only, the metric columns stay null. A measurement switch (INGEST_METRIC_COLUMNS=off, used by
+	 * bench:ingest to show what the metric columns cost), not a product setting.
+	 */
+	metrics?: boolean;
 }
 
 /** The columns of a frames row: the per-frame metrics, and what identifies and holds the frame. */
@@ -33,11 +38,29 @@ export function cardinalitySd(frame: MetricFrame): number | null {
 }
 
 export function frameMetricsFor(frame: MetricFrame, ctx: RowContext): FrameMetrics {
+	if (ctx.metrics === false) return setSizes(frame);
 	return frameMetrics(frame, {
 		stateFields: ctx.stateFields,
 		settings: ctx.settings,
 		coords: ctx.coords
 	});
+}
+
+function setSizes(frame: MetricFrame): FrameMetrics {
+	return {
+		n_truth: frame.truth ? frame.truth.length : null,
+		n_estimates: frame.estimates ? frame.estimates.length : null,
+		n_measurements: frame.measurements ? frame.measurements.length : null,
+		expected_cardinality: null,
+		gospa: null,
+		gospa_localization: null,
+		gospa_missed: null,
+		gospa_false: null,
+		ospa: null,
+		nees_mean: null,
+		nees_count: 0,
+		zones: {}
+	};
 }
 
 /** The row of a frame whose metrics are known. */

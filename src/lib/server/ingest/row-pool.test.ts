@@ -93,6 +93,22 @@ describe('RowPool', () => {
 		expect(p.metrics.n_truth).toBe(5001);
 	});
 
+	it('with the metric columns switched off, keeps set sizes and leaves the metrics null', async () => {
+		const pool = new RowPool();
+		pools.push(pool);
+		const ctx: RowContext = {
+			stateFields: ['x', 'y', 'vx', 'vy'],
+			settings: defaultMetricSettings,
+			coords: 'world',
+			metrics: false
+		};
+		const f = { type: 'frame', seq: 0, t: 1, estimates: [{ x: [1, 2, 3, 4] }], truth: [] };
+		const p = await pool.prepare(runId, ctx, dims, { seq: 0, t: 1, raw: packr.pack(f) });
+		expect(p.metrics).toMatchObject({ n_estimates: 1, n_truth: 0, n_measurements: null });
+		expect(p.metrics.gospa).toBeNull();
+		expect(p.metrics.expected_cardinality).toBeNull();
+	});
+
 	it('fails the frames waiting for a worker that dies, and starts a new worker for the next ones', async () => {
 		const pool = new RowPool();
 		pools.push(pool);

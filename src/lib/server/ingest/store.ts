@@ -69,6 +69,7 @@ export class PostgresIngestStore implements IngestStore {
 	#runs = new Map<string, RunContext>();
 	#prepared = new WeakMap<FrameToStore, Promise<PreparedRow>>();
 	#pool: RowPool | null;
+	#metricColumns = process.env.INGEST_METRIC_COLUMNS !== 'off';
 
 	/** `rowWorker`: compute rows in a worker thread (INGEST_ROW_WORKER=off computes them inline). */
 	constructor(
@@ -166,7 +167,12 @@ export class PostgresIngestStore implements IngestStore {
 	}
 
 	#prepare(runId: string, f: FrameToStore, ctx: RunContext): Promise<PreparedRow> {
-		const rowCtx = { stateFields: ctx.stateFields, settings: ctx.settings, coords: ctx.coords };
+		const rowCtx = {
+			stateFields: ctx.stateFields,
+			settings: ctx.settings,
+			coords: ctx.coords,
+			metrics: this.#metricColumns
+		};
 		if (this.#pool === null) {
 			const metrics = frameMetricsFor(f.frame, rowCtx);
 			const sd = cardinalitySd(f.frame);
