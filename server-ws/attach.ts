@@ -4,8 +4,8 @@ import { PostgresIngestStore } from '../src/lib/server/ingest/store';
 import { applyRetention, createPartitionsAhead } from '../src/lib/server/ingest/partitions';
 import { logger } from '../src/lib/server/log';
 import { startMetricJobs, stopMetricJobs } from '../src/lib/server/metrics/jobs';
-import { keyRevokedChannel } from '../src/lib/server/rigs';
-import { closeSocketsForKey, createIngestEndpoint } from './ingest/endpoint';
+import { keyExpiryChannel, keyRevokedChannel } from '../src/lib/server/rigs';
+import { closeSocketsForKey, createIngestEndpoint, setKeyExpiry } from './ingest/endpoint';
 import { postgresLiveDirectory } from './live/directory';
 import { createLiveEndpoint } from './live/endpoint';
 
@@ -46,6 +46,13 @@ export function attachSockets(server: Server): AttachedSockets {
 		const n = closeSocketsForKey(keyId);
 		if (n) logger.info({ keyId, closed: n }, 'feed key revoked: sockets closed');
 	});
+	const listeningExpiry = sql.listen(keyExpiryChannel, (payload) => {
+		const [keyId, at] = payload.split(' ');
+		const expiresAt = Number(at);
+		if (!keyId || !Number.isFinite(expiresAt)) return;
+		const n = setKeyExpiry(keyId, expiresAt);
+		if (n) logger.info({ keyId, connections: n, expiresAt }, 'feed key expiry set on open sockets');
+	});
 
 	const graceMs = Number(process.env.INGEST_GRACE_SECONDS ?? 30) * 1000;
 	// runs left live by a previous process (crash, restart) become interrupted once their grace has passed
@@ -83,6 +90,7 @@ export function attachSockets(server: Server): AttachedSockets {
 			await ingest.close();
 			await stopMetricJobs();
 			await (await listening).unlisten();
+			await (await listeningExpiry).unlisten();
 		}
 	};
 }

@@ -45,7 +45,12 @@ interface Connection {
 	session: IngestSession;
 	ws: WebSocket;
 	alive: boolean;
+	/** closes the connection when its key expires */
+	expiry: ReturnType<typeof setTimeout> | null;
 }
+
+/** setTimeout's longest delay; a later expiry is waited for in steps */
+const MAX_TIMER_MS = 2 ** 31 - 1;
 
 export class IngestEndpoint {
 	readonly path: string;
@@ -140,6 +145,7 @@ export class IngestEndpoint {
 		const conn: Connection = {
 			ws,
 			alive: true,
+			expiry: null,
 			session: new IngestSession(this.#ctx, rig, {
 				send: (data) => {
 					if (ws.readyState === ws.OPEN) ws.send(data);
@@ -157,8 +163,10 @@ export class IngestEndpoint {
 		ws.on('error', () => {});
 		ws.on('close', () => {
 			this.#connections.delete(conn);
+			if (conn.expiry !== null) clearTimeout(conn.expiry);
 			conn.session.disconnected();
 		});
+		this.#armExpiry(conn, rig.expiresAt ?? null);
 		this.#store
 			.touchKey(rig.keyId, address)
 			.catch((error: unknown) => this.#ctx.onError(error, 'touchKey failed'));
@@ -173,6 +181,31 @@ export class IngestEndpoint {
 			conn.alive = false;
 			conn.ws.ping();
 		}
+	}
+
+	/** A connection whose key expires at `expiresAt` (ms) is closed then: 4001 "key expired". */
+	#armExpiry(conn: Connection, expiresAt: number | null): void {
+		if (conn.expiry !== null) clearTimeout(conn.expiry);
+		conn.expiry = null;
+		if (expiresAt === null) return;
+		const wait = expiresAt - Date.now();
+		if (wait <= 0) {
+			conn.session.end(CloseCode.keyRevoked, 'key expired');
+			return;
+		}
+		conn.expiry = setTimeout(() => this.#armExpiry(conn, expiresAt), Math.min(wait, MAX_TIMER_MS));
+		conn.expiry.unref();
+	}
+
+	/** The key's expiry changed (a rotation's grace period): its connections close when it comes. */
+	setKeyExpiry(keyId: string, expiresAt: number): number {
+		let n = 0;
+		for (const conn of this.#connections) {
+			if (conn.session.rig.keyId !== keyId) continue;
+			this.#armExpiry(conn, expiresAt);
+			n++;
+		}
+		return n;
 	}
 
 	/** Closes every connection streaming with this key: 4001 "key revoked". Returns how many. */
@@ -236,6 +269,13 @@ export function closeSocketsForKey(keyId: string): number {
 	let closed = 0;
 	for (const endpoint of liveEndpoints()) closed += endpoint.closeSocketsForKey(keyId);
 	return closed;
+}
+
+/** A key's new expiry (ms since the epoch), for every ingest endpoint of this process. Returns the connections it applies to. */
+export function setKeyExpiry(keyId: string, expiresAt: number): number {
+	let n = 0;
+	for (const endpoint of liveEndpoints()) n += endpoint.setKeyExpiry(keyId, expiresAt);
+	return n;
 }
 
 function bearerKey(header: string | undefined): string | null {

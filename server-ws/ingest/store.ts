@@ -9,6 +9,8 @@ import type { Encoding, Frame, IngestRunState, RunSpec } from '../../src/lib/pro
 export interface RigRef {
 	rigId: string;
 	keyId: string;
+	/** when the key stops working (ms since the epoch); connections on it are closed then */
+	expiresAt?: number | null;
 }
 
 export type KeyResolution =

@@ -249,6 +249,37 @@ describe('ingest into PostgreSQL', () => {
 		expect((await refused(rig.secret)).body).toBe('feed key revoked\n');
 	});
 
+	it('closes a socket when its key expires while it is connected, and when a rotation ends its grace', async () => {
+		const closedAt = (ws: WebSocket) =>
+			new Promise<{ code: number; reason: string; at: number }>((r) =>
+				ws.once('close', (code, reason) => r({ code, reason: String(reason), at: Date.now() }))
+			);
+		const expiresAt = Date.now() + 1500;
+		const rig = await makeRigWithKey('expiring', { expiresAt: new Date(expiresAt) });
+		const ws = new WebSocket(wsUrl, { headers: { authorization: `Bearer ${rig.secret}` } });
+		await new Promise((r) => ws.once('open', r));
+		const c = await closedAt(ws);
+		expect(c).toMatchObject({ code: 4001, reason: 'key expired' });
+		expect(c.at).toBeGreaterThanOrEqual(expiresAt - 50);
+		expect(c.at - expiresAt).toBeLessThan(1000);
+
+		// a rotation with grace announces the old key's expiry (rigs.test.ts); here the announcement alone
+		const other = await makeRigWithKey('rotating');
+		const ws2 = new WebSocket(wsUrl, { headers: { authorization: `Bearer ${other.secret}` } });
+		await new Promise((r) => ws2.once('open', r));
+		const closed2 = closedAt(ws2);
+		const graceEnd = Date.now() + 800;
+		const sql = sqlClient();
+		await sql.begin(async (tx) => {
+			await tx`update feed_keys set expires_at = ${new Date(graceEnd)} where id = ${other.keyId}`;
+			await tx`select pg_notify('skein_feed_key_expiry', ${`${other.keyId} ${graceEnd}`})`;
+		});
+		const c2 = await closed2;
+		expect(c2).toMatchObject({ code: 4001, reason: 'key expired' });
+		expect(c2.at).toBeGreaterThanOrEqual(graceEnd - 50);
+		expect(c2.at - graceEnd).toBeLessThan(1000);
+	});
+
 	it('stores a batch exactly once even when it is committed twice (binary COPY falls back to insert-or-skip)', async () => {
 		// run in plain Node: postgres.js parameter serialisation misbehaves inside Vitest's module runner
 		const rig = await makeRigWithKey('twice');

@@ -11,7 +11,12 @@ import { afterAll, beforeAll, describe, expect, inject, it } from 'vitest';
 import type { Role } from '$lib/permissions';
 import { hashSecret } from '$server/auth/tokens';
 import { db, schema } from '$server/db';
-import { keyRevokedChannel, recordFeedKeyUse, resolveFeedKey } from '$server/rigs';
+import {
+	keyExpiryChannel,
+	keyRevokedChannel,
+	recordFeedKeyUse,
+	resolveFeedKey
+} from '$server/rigs';
 import { testDatabaseUrl } from '../support/env';
 import { Browserish } from '../support/client';
 import { makePerson } from '../support/factories';
@@ -357,7 +362,12 @@ describe('resolveFeedKey', () => {
 	it('accepts a working key and names the rig', async () => {
 		const rig = await newRig();
 		const key = await newKey(rig.id);
-		expect(await resolveFeedKey(key.secret)).toEqual({ ok: true, rigId: rig.id, keyId: key.id });
+		expect(await resolveFeedKey(key.secret)).toEqual({
+			ok: true,
+			rigId: rig.id,
+			keyId: key.id,
+			expiresAt: null
+		});
 	});
 
 	it('refuses unknown, revoked, expired and archived-rig keys with a one-line reason', async () => {
@@ -404,11 +414,18 @@ describe('resolveFeedKey', () => {
 		const row = await keyRow(old.id);
 		expect(row.rotatedTo).toBe(fresh.id);
 		expect(Math.abs(row.expiresAt!.getTime() - (t0 + 120 * 60_000))).toBeLessThan(10_000);
-		expect(await resolveFeedKey(old.secret)).toEqual({ ok: true, rigId: rig.id, keyId: old.id });
+		// the old key resolves with its expiry, so a connection on it is closed when the grace period ends
+		expect(await resolveFeedKey(old.secret)).toEqual({
+			ok: true,
+			rigId: rig.id,
+			keyId: old.id,
+			expiresAt: row.expiresAt!.getTime()
+		});
 		expect(await resolveFeedKey(fresh.secret)).toEqual({
 			ok: true,
 			rigId: rig.id,
-			keyId: fresh.id
+			keyId: fresh.id,
+			expiresAt: null
 		});
 
 		await db()
@@ -435,10 +452,12 @@ describe('resolveFeedKey', () => {
 describe('revocation over NOTIFY', () => {
 	let listener: postgres.Sql;
 	const heard: string[] = [];
+	const expiries: string[] = [];
 
 	beforeAll(async () => {
 		listener = postgres(testDatabaseUrl(), { max: 1, onnotice: () => {} });
 		await listener.listen(keyRevokedChannel, (payload) => heard.push(payload));
+		await listener.listen(keyExpiryChannel, (payload) => expiries.push(payload));
 	});
 
 	afterAll(async () => {
@@ -476,6 +495,21 @@ describe('revocation over NOTIFY', () => {
 		expect(await hears(a.id)).toBe(true);
 		expect(await hears(b.id)).toBe(true);
 		expect(heard).not.toContain(gone.id);
+	});
+
+	it("announces the end of a rotated key's grace period, so open sockets on it close then", async () => {
+		expect(keyExpiryChannel).toBe('skein_feed_key_expiry');
+		const rig = await newRig();
+		const key = await newKey(rig.id);
+		expect(
+			(await call('operator', 'POST', `/api/keys/${key.id}/rotate`, { grace_minutes: 10 })).status
+		).toBe(201);
+		const deadline = Date.now() + 1000;
+		while (!expiries.some((e) => e.startsWith(key.id)) && Date.now() < deadline)
+			await new Promise((r) => setTimeout(r, 20));
+		const payload = expiries.find((e) => e.startsWith(key.id));
+		expect(payload).toBe(`${key.id} ${(await keyRow(key.id)).expiresAt!.getTime()}`);
+		expect(heard).not.toContain(key.id);
 	});
 
 	it('does not announce anything when a revoke is refused', async () => {

@@ -109,6 +109,20 @@ describe('RowPool', () => {
 		expect(p.metrics.expected_cardinality).toBeNull();
 	});
 
+	it('fails the frames of a batch the worker could not compute, with its reason', async () => {
+		const pool = new RowPool();
+		pools.push(pool);
+		const ctx: RowContext = {
+			stateFields: ['x', 'y', 'vx', 'vy'],
+			settings: { ...defaultMetricSettings, c: -1 }, // settings validation never lets this through
+			coords: 'world'
+		};
+		const raw = packr.pack(frame(0, seededRandom(1)));
+		await expect(pool.prepare(runId, ctx, dims, { seq: 0, t: 1, raw })).rejects.toThrow(
+			/row worker: cut-off c must be finite and > 0/
+		);
+	});
+
 	it('fails the frames waiting for a worker that dies, and starts a new worker for the next ones', async () => {
 		const pool = new RowPool();
 		pools.push(pool);
@@ -117,14 +131,25 @@ describe('RowPool', () => {
 			settings: defaultMetricSettings,
 			coords: 'world'
 		};
-		const raw = packr.pack(frame(0, seededRandom(1)));
-		// warm up, so the worker is running
-		await pool.prepare(runId, ctx, dims, { seq: 0, t: 1, raw });
-		const waiting = pool.prepare(runId, ctx, dims, { seq: 1, t: 1, raw });
+		const rnd = seededRandom(1);
+		// a batch that keeps the worker busy for a good while (100 × 100 objects per frame)
+		const heavy = (seq: number) => {
+			const est = Array.from({ length: 100 }, () => ({
+				x: [rnd() * 99, rnd() * 99, 0, 0],
+				r: 0.5
+			}));
+			return packr.pack({ type: 'frame', seq, t: 1, estimates: est, truth: est });
+		};
+		await pool.prepare(runId, ctx, dims, { seq: 0, t: 1, raw: heavy(0) }); // the worker is up
+		const waiting = Array.from({ length: 400 }, (_, i) =>
+			pool.prepare(runId, ctx, dims, { seq: i + 1, t: 1, raw: heavy(i + 1) })
+		);
 		await new Promise((r) => setImmediate(r)); // the batch is posted
 		await pool.close();
-		await expect(waiting).rejects.toThrow(/row worker/);
-		const again = await pool.prepare(runId, ctx, dims, { seq: 2, t: 1, raw });
-		expect(again.tuple.length).toBeGreaterThan(0);
+		const outcomes = await Promise.allSettled(waiting);
+		expect(outcomes.every((o) => o.status === 'rejected')).toBe(true);
+		expect(String((outcomes[0] as PromiseRejectedResult).reason)).toMatch(/row worker exited/);
+		const again = await pool.prepare(runId, ctx, dims, { seq: 999, t: 1, raw: heavy(999) });
+		expect(again.metrics.n_truth).toBe(100);
 	});
 });

@@ -82,7 +82,7 @@ export class PostgresIngestStore implements IngestStore {
 
 	async resolveKey(key: string): Promise<KeyResolution> {
 		const r = await resolveFeedKey(key);
-		return r.ok ? { ok: true, rig: { rigId: r.rigId, keyId: r.keyId } } : r;
+		return r.ok ? { ok: true, rig: { rigId: r.rigId, keyId: r.keyId, expiresAt: r.expiresAt } } : r;
 	}
 
 	async openRun(req: OpenRunRequest): Promise<OpenRunResult> {

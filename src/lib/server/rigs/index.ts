@@ -13,6 +13,8 @@ const k = schema.feedKeys;
 
 /** Payload: the key id. Sent for each key that stops working at once, in the transaction that stops it. */
 export const keyRevokedChannel = 'skein_feed_key_revoked';
+/** payload "<key id> <expiry, ms since the epoch>": connections on the key close when it expires */
+export const keyExpiryChannel = 'skein_feed_key_expiry';
 
 /** A key with an expiry closer than this is shown as expiring. */
 export const expiringWindowMs = 7 * 24 * 3600_000;
@@ -398,6 +400,8 @@ export async function rotateFeedKey(actor: Actor, id: string, graceMinutes: numb
 			.where(eq(k.id, id))
 			.returning(keyColumns);
 		if (oldEnd.getTime() <= now) await notifyStopped(tx, [id]);
+		else
+			await tx.execute(sql`select pg_notify(${keyExpiryChannel}, ${`${id} ${oldEnd.getTime()}`})`);
 		await auditIn(tx, actor, 'feed_key.rotate', old.rigName, {
 			keyId: id,
 			prefix: old.prefix,
@@ -410,7 +414,8 @@ export async function rotateFeedKey(actor: Actor, id: string, graceMinutes: numb
 }
 
 export type FeedKeyResolution =
-	{ ok: true; rigId: string; keyId: string } | { ok: false; reason: string };
+	| { ok: true; rigId: string; keyId: string; expiresAt: number | null }
+	| { ok: false; reason: string };
 
 /** What the ingest side asks when a rig connects: does this secret open a feed, and for which rig? */
 export async function resolveFeedKey(secret: string): Promise<FeedKeyResolution> {
@@ -432,7 +437,12 @@ export async function resolveFeedKey(secret: string): Promise<FeedKeyResolution>
 	if (row.expiresAt && row.expiresAt.getTime() <= Date.now())
 		return { ok: false, reason: 'feed key expired' };
 	if (row.archivedAt) return { ok: false, reason: 'rig archived' };
-	return { ok: true, rigId: row.rigId, keyId: row.keyId };
+	return {
+		ok: true,
+		rigId: row.rigId,
+		keyId: row.keyId,
+		expiresAt: row.expiresAt ? row.expiresAt.getTime() : null
+	};
 }
 
 /** For the ingest side: a connection was accepted on this key, and/or frames arrived on it. */
