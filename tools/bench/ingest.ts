@@ -199,6 +199,8 @@ async function main() {
 	const results: { label: string; fps: number; p50: number; p99: number }[] = [];
 	let runIx = 0;
 	async function config(label: string, rigs: number, rateHz?: number) {
+		// every measurement starts from a clean checkpoint, not in the middle of one the previous run caused
+		await sql`checkpoint`;
 		const untilMs = performance.now() + seconds * 1000;
 		const started = performance.now();
 		const t0 = Date.UTC(2026, 10, 30) / 1000 + runIx * 3600;
@@ -288,6 +290,7 @@ async function main() {
 		'run_id, seq, t, ts, data, n_measurements, n_estimates, n_truth, expected_cardinality, gospa, gospa_localization, gospa_missed, gospa_false, ospa, nees_mean, zones';
 
 	async function copyChunks(statement: string, chunks: (string | Buffer)[]): Promise<number> {
+		await sql`checkpoint`;
 		const started = performance.now();
 		const stream = await sql.unsafe(statement).writable();
 		for (const chunk of chunks) {
