@@ -109,6 +109,22 @@ describe('RowPool', () => {
 		expect(p.metrics.expected_cardinality).toBeNull();
 	});
 
+	it('stands aside after workers fail to start three times in a row, so the store computes rows inline', async () => {
+		const pool = new RowPool(new URL('./no-such-worker.ts', import.meta.url));
+		pools.push(pool);
+		const ctx: RowContext = {
+			stateFields: ['x', 'y', 'vx', 'vy'],
+			settings: defaultMetricSettings,
+			coords: 'world'
+		};
+		const raw = packr.pack(frame(0, seededRandom(1)));
+		for (let i = 0; i < 3; i++) {
+			expect(pool.usable).toBe(true);
+			await expect(pool.prepare(runId, ctx, dims, { seq: i, t: 1, raw })).rejects.toThrow();
+		}
+		expect(pool.usable).toBe(false);
+	});
+
 	it('fails the frames of a batch the worker could not compute, with its reason', async () => {
 		const pool = new RowPool();
 		pools.push(pool);

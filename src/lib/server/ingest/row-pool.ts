@@ -12,6 +12,7 @@ import { Worker } from 'node:worker_threads';
 import type { FrameMetrics } from '$lib/metrics/frame';
 import type { Zone } from '$lib/metrics/zones';
 import type { RunDims } from '$lib/protocol/validate';
+import { logger } from '../log';
 import type { RowContext } from './frame-rows';
 
 export interface RowBatch {
@@ -114,18 +115,42 @@ interface Waiting {
  * The worker is TypeScript, run through tsx like the rest of the server. tsx's `--import` hook does not reach
  * worker threads, so the worker starts from a small script that registers tsx and then imports it.
  */
-function startWorker(): Worker {
-	const entry = new URL('./row-worker.ts', import.meta.url).href;
-	const boot = `import('tsx/esm/api').then((tsx) => { tsx.register(); return import(${JSON.stringify(entry)}); })`;
+function startWorker(entryUrl: URL): Worker {
+	const entry = entryUrl.href;
+	// resolved here, so the worker finds tsx whatever the working directory (Vite's SSR runner has no resolve)
+	const tsx =
+		typeof import.meta.resolve === 'function' ? import.meta.resolve('tsx/esm/api') : 'tsx/esm/api';
+	const boot = `import(${JSON.stringify(tsx)}).then((tsx) => { tsx.register(); return import(${JSON.stringify(entry)}); })`;
 	return new Worker(boot, { eval: true });
 }
+
+/** workers in a row that failed before computing anything; after this many the pool stands aside */
+const MAX_BOOT_FAILURES = 3;
 
 export class RowPool {
 	#worker: Worker | null = null;
 	#queue: Waiting[] = [];
 	#flushQueued = false;
-	#inFlight = new Map<number, Waiting[]>();
+	/** batches posted and not answered, by id, with the worker computing them */
+	#inFlight = new Map<number, { worker: Worker; items: Waiting[] }>();
 	#nextId = 0;
+	#bootFailures = 0;
+	/** workers stopped on purpose: their exit is no failure */
+	#stopped = new WeakSet<Worker>();
+	#entry: URL;
+
+	/** `entry`: the worker's module (tests start a broken one) */
+	constructor(entry: URL = new URL('./row-worker.ts', import.meta.url)) {
+		this.#entry = entry;
+	}
+
+	/**
+	 * False once workers keep failing before computing anything (e.g. tsx cannot be loaded in a worker here):
+	 * the store then computes rows inline rather than failing every commit.
+	 */
+	get usable(): boolean {
+		return this.#bootFailures < MAX_BOOT_FAILURES;
+	}
 
 	prepare(
 		runId: string,
@@ -178,8 +203,8 @@ export class RowPool {
 			data.set(w.raw, o);
 			o += w.raw.byteLength;
 		});
-		this.#inFlight.set(batch.id, items);
 		const worker = this.#ensureWorker();
+		this.#inFlight.set(batch.id, { worker, items });
 		// the worker keeps the process alive only while it has work: an idle pool never holds up an exit
 		worker.ref();
 		worker.postMessage(batch, [data.buffer]);
@@ -187,13 +212,29 @@ export class RowPool {
 
 	#ensureWorker(): Worker {
 		if (this.#worker) return this.#worker;
-		const worker = startWorker();
-		worker.on('message', (msg: RowBatchResult | { id: number; error: string }) => this.#done(msg));
+		const worker = startWorker(this.#entry);
+		let answered = false;
+		worker.on('message', (msg: RowBatchResult | { id: number; error: string }) => {
+			answered = true;
+			this.#bootFailures = 0;
+			this.#done(msg);
+		});
+		let failed = false;
 		const fail = (error: Error) => {
 			if (this.#worker === worker) this.#worker = null;
-			const waiting = [...this.#inFlight.values()].flat();
-			this.#inFlight.clear();
-			for (const w of waiting) w.reject(error);
+			// 'error' and 'exit' may both come: one failure
+			if (!answered && !failed && !this.#stopped.has(worker)) {
+				this.#bootFailures++;
+				if (!this.usable)
+					logger.error({ err: error }, 'the row worker does not start; computing rows inline');
+			}
+			failed = true;
+			// only this worker's batches: a new worker may already be computing others
+			for (const [id, batch] of this.#inFlight) {
+				if (batch.worker !== worker) continue;
+				this.#inFlight.delete(id);
+				for (const w of batch.items) w.reject(error);
+			}
 		};
 		worker.on('error', fail);
 		worker.on('exit', (code) => fail(new Error(`row worker exited with code ${code}`)));
@@ -204,10 +245,11 @@ export class RowPool {
 	}
 
 	#done(msg: RowBatchResult | { id: number; error: string }): void {
-		const items = this.#inFlight.get(msg.id);
-		if (!items) return;
+		const batch = this.#inFlight.get(msg.id);
+		if (!batch) return;
 		this.#inFlight.delete(msg.id);
-		if (this.#inFlight.size === 0) this.#worker?.unref();
+		if (![...this.#inFlight.values()].some((b) => b.worker === batch.worker)) batch.worker.unref();
+		const items = batch.items;
 		if ('error' in msg) {
 			for (const w of items) w.reject(new Error(`row worker: ${msg.error}`));
 			return;
@@ -227,6 +269,8 @@ export class RowPool {
 	async close(): Promise<void> {
 		const worker = this.#worker;
 		this.#worker = null;
-		if (worker) await worker.terminate();
+		if (!worker) return;
+		this.#stopped.add(worker);
+		await worker.terminate();
 	}
 }

@@ -173,7 +173,7 @@ export class PostgresIngestStore implements IngestStore {
 			coords: ctx.coords,
 			metrics: this.#metricColumns
 		};
-		if (this.#pool === null) {
+		if (this.#pool === null || !this.#pool.usable) {
 			const metrics = frameMetricsFor(f.frame, rowCtx);
 			const sd = cardinalitySd(f.frame);
 			f.metrics = metrics;
