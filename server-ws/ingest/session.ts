@@ -76,13 +76,9 @@ export class IngestSession implements ChannelListener {
 			if (read !== null) {
 				this.#ackEncoding = 'msgpack';
 				if (this.#sequenced(ch, read.seq, 'msgpack')) {
-					if (ch.lastT !== null && read.t < ch.lastT) {
-						const reason = `t: ${read.t} is before the previous frame's t ${ch.lastT}`;
-						ch.quarantine({ seq: read.seq, raw: data, encoding: 'msgpack', reason });
-						this.#sendError('msgpack', 'invalid_frame', reason, read.seq);
-					} else {
-						ch.accept({ seq: read.seq, t: read.t, raw: data, frame: read, decoded: null });
-					}
+					const back = timeWentBack(ch, read.t);
+					if (back !== null) this.#quarantine(ch, data, 'msgpack', read.seq, back);
+					else ch.accept({ seq: read.seq, t: read.t, raw: data, frame: read, decoded: null });
 				}
 				return;
 			}
@@ -123,12 +119,13 @@ export class IngestSession implements ChannelListener {
 		if (!this.#sequenced(ch, seq, d.encoding)) return;
 		const checked = validateFrame(msg, ch.dims, this.#ctx.limits);
 		if (!checked.ok) {
-			this.#quarantine(ch, d, seq, formatIssue(checked));
+			this.#quarantine(ch, d.raw, d.encoding, seq, formatIssue(checked));
 			return;
 		}
 		const frame = checked.value;
-		if (ch.lastT !== null && frame.t < ch.lastT) {
-			this.#quarantine(ch, d, seq, `t: ${frame.t} is before the previous frame's t ${ch.lastT}`);
+		const back = timeWentBack(ch, frame.t);
+		if (back !== null) {
+			this.#quarantine(ch, d.raw, d.encoding, seq, back);
 			return;
 		}
 		ch.accept({ seq, t: frame.t, raw: storedFrameBytes(d), frame, decoded: frame });
@@ -164,9 +161,16 @@ export class IngestSession implements ChannelListener {
 		return true;
 	}
 
-	#quarantine(ch: RunChannel, d: DecodedOk, seq: number, reason: string): void {
-		ch.quarantine({ seq, raw: d.raw, encoding: d.encoding, reason });
-		this.#sendError(d.encoding, 'invalid_frame', reason, seq);
+	/** `raw`: the message as received. */
+	#quarantine(
+		ch: RunChannel,
+		raw: Uint8Array,
+		encoding: Encoding,
+		seq: number,
+		reason: string
+	): void {
+		ch.quarantine({ seq, raw, encoding, reason });
+		this.#sendError(encoding, 'invalid_frame', reason, seq);
 	}
 
 	async #open(d: DecodedOk): Promise<void> {
@@ -381,4 +385,11 @@ export class IngestSession implements ChannelListener {
 			ch.startGrace();
 		}
 	}
+}
+
+/** Why a frame at time `t` cannot follow the run's last one, or null when it can (t never decreases). */
+function timeWentBack(ch: RunChannel, t: number): string | null {
+	return ch.lastT !== null && t < ch.lastT
+		? `t: ${t} is before the previous frame's t ${ch.lastT}`
+		: null;
 }
