@@ -6,6 +6,7 @@
 import { expect, test, type Page } from '@playwright/test';
 import { viewer, makeRigWithKey, signIn } from './support';
 import { runSimulatedRig } from '../../tools/sim/rig';
+import { SkeinRigClient } from '../../src/lib/protocol/client';
 
 const base = `http://127.0.0.1:${process.env.E2E_PORT ?? 4317}`;
 const runName = `live follow e2e ${Date.now().toString(36)}`;
@@ -83,4 +84,53 @@ test('the Live board shows the streaming run; its tile follows it live on the Ru
 	await streaming;
 	await expect(page.getByTestId('live-notice')).toContainText('ended', { timeout: 15_000 });
 	await expect(bar).toHaveAttribute('data-state', 'ended');
+});
+
+test('a live run that had no frames when its page opened grows on the timeline, and what arrived can be scrubbed', async ({
+	page
+}) => {
+	const rig = await makeRigWithKey('e2e-empty-start');
+	const client = new SkeinRigClient({
+		url: base.replace('http', 'ws') + '/ingest/v1',
+		key: rig.secret,
+		clientRunId: `empty-start-${Date.now().toString(36)}`,
+		run: {
+			name: 'opened before its first frame',
+			state_fields: ['x', 'y', 'vx', 'vy'],
+			measurement_fields: ['x', 'y']
+		}
+	});
+	const { runId } = await client.start();
+	try {
+		await signIn(page, viewer);
+		await page.goto(`/runs/${runId}?live`);
+		const bar = page.getByTestId('live-bar');
+		await expect(page.getByTestId('run-length')).toHaveText('/ T+00:00.000');
+
+		// frames start after the page is open: 20 Hz for about 4 s
+		const t0 = Date.now() / 1000;
+		for (let k = 0; k < 80; k++) {
+			client.send({
+				t: t0 + k * 0.05,
+				estimates: [{ id: 1, x: [k * 0.2, 1, 4, 0], r: 0.9 }],
+				truth: [{ id: 'a', x: [k * 0.2, 1.1, 4, 0] }]
+			});
+			await new Promise((r) => setTimeout(r, 50));
+		}
+		await client.flush();
+		await expect(bar).toHaveAttribute('data-state', 'following', { timeout: 10_000 });
+		await expect(page.getByTestId('run-length')).not.toHaveText('/ T+00:00.000');
+		const latest = await liveSeq(page);
+		expect(latest).toBeGreaterThan(40);
+
+		// back into what arrived: the frame shown comes from the stored run
+		for (let k = 0; k < 10; k++) await page.keyboard.press('ArrowLeft');
+		await expect(bar).toHaveAttribute('data-state', 'live');
+		await expect
+			.poll(async () => (await sceneSeq(page)) ?? -1, { timeout: 10_000 })
+			.toBeLessThan(latest);
+		expect((await sceneSeq(page)) ?? -1).toBeGreaterThanOrEqual(0);
+	} finally {
+		await client.close();
+	}
 });

@@ -55,7 +55,6 @@ export class LiveFollow {
 	#socket: LiveSocket | null = null;
 	#latest: LiveFrameMessage | null = null;
 	#shownT = $state<number | null>(null);
-	#firstT: number | null;
 	#raf = 0;
 	#rate = new RateMeter(2);
 	#window = new LatencyWindow(60_000);
@@ -64,7 +63,6 @@ export class LiveFollow {
 	constructor(player: RunPlayer, options: LiveFollowOptions) {
 		this.player = player;
 		this.#o = options;
-		this.#firstT = player.run.firstT;
 		this.following = options.follow;
 	}
 
@@ -99,7 +97,7 @@ export class LiveFollow {
 
 	#receive(m: LiveServerMessage) {
 		if (m.type === 'hello') {
-			if (this.#firstT === null) this.#firstT = m.run.first_t;
+			if (m.run.first_t !== null) this.player.begin(m.run.first_t);
 			if (this.runState !== null && this.runState !== m.run.state) this.stateChangedAt = Date.now();
 			this.runState = m.run.state;
 		} else if (m.type === 'state') {
@@ -109,7 +107,7 @@ export class LiveFollow {
 			if (m.state === 'live')
 				setTimeout(() => this.stateChangedAt === at && (this.stateChangedAt = null), 6000);
 		} else if (m.type === 'frame') {
-			this.#firstT ??= m.t;
+			this.player.begin(m.t);
 			this.#rate.add(m.t, 1 + m.skipped);
 			this.#latest = m;
 			this.received++;
@@ -132,7 +130,7 @@ export class LiveFollow {
 	}
 
 	#show(m: LiveFrameMessage) {
-		const relT = m.t - (this.#firstT ?? m.t);
+		const relT = m.t - (this.player.firstT ?? m.t);
 		// the timeline grows with the run, so what arrived while following can be scrubbed afterwards
 		this.player.extend(relT);
 		const t = relT;

@@ -54,7 +54,10 @@ export class RunPlayer {
 	readonly run: PlayerRun;
 	/** seconds from the first frame to the last one known; grows while a live run is followed */
 	duration = $state(0);
-	readonly cache: FrameCache | null;
+	/** device time of the run's first frame; null until a run that had no frames when the page opened gets one */
+	firstT = $state<number | null>(null);
+	/** null while the run has no frames */
+	cache = $state.raw<FrameCache | null>(null);
 	readonly settings: MetricSettings;
 	readonly evaluation: FrameEvaluation | null = $derived.by(() =>
 		this.frame ? this.evaluate(this.frame) : null
@@ -77,24 +80,28 @@ export class RunPlayer {
 		this.settings = parsed?.ok ? parsed.settings : defaultMetricSettings;
 		this.duration = run.duration;
 		this.t = clamp(t0, 0, run.duration);
-		const rate = run.frameRate && run.frameRate > 0 ? run.frameRate : 10;
-		this.cache =
-			run.firstT === null
-				? null
-				: new FrameCache({
-						firstT: run.firstT,
-						duration: run.duration,
-						// ~40 frames a window keeps each fetch small even for heavy frames
-						windowS: Math.max(0.5, 40 / rate),
-						maxWindows: 24,
-						fetchWindow: (from, to, signal) => this.#fetch(from, to, signal, 5000),
-						// the frame at the playhead: the last frame in the frame period or two before it
-						fetchProbe: (at, signal) => this.#fetch(at - 1.5 / rate, at, signal, 64),
-						onChange: () => {
-							this.arrivals++;
-							this.refresh();
-						}
-					});
+		if (run.firstT !== null) this.begin(run.firstT);
+	}
+
+	/** The run's first frame is at device time `firstT`: from now on frames can be fetched and scrubbed. */
+	begin(firstT: number) {
+		if (this.firstT !== null) return;
+		this.firstT = firstT;
+		const rate = this.run.frameRate && this.run.frameRate > 0 ? this.run.frameRate : 10;
+		this.cache = new FrameCache({
+			firstT,
+			duration: this.duration,
+			// ~40 frames a window keeps each fetch small even for heavy frames
+			windowS: Math.max(0.5, 40 / rate),
+			maxWindows: 24,
+			fetchWindow: (from, to, signal) => this.#fetch(from, to, signal, 5000),
+			// the frame at the playhead: the last frame in the frame period or two before it
+			fetchProbe: (at, signal) => this.#fetch(at - 1.5 / rate, at, signal, 64),
+			onChange: () => {
+				this.arrivals++;
+				this.refresh();
+			}
+		});
 	}
 
 	/** starts fetching; called from the browser only (never during server rendering) */
@@ -160,7 +167,7 @@ export class RunPlayer {
 		this.#panelTimer = undefined;
 		this.#panelAt = performance.now();
 		const f = this.#frame;
-		this.panel = { frame: f, t: f && this.run.firstT !== null ? f.t - this.run.firstT : 0 };
+		this.panel = { frame: f, t: f && this.firstT !== null ? f.t - this.firstT : 0 };
 	}
 
 	/** trail frames: the last TRAIL_S seconds up to the frame on screen (on hand when `arrivals` last changed) */
