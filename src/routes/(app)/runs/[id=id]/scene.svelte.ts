@@ -4,7 +4,7 @@
  * placed in screen space from the camera, so markers keep their pixel size while zooming. The canvas is
  * rendered only when something changed.
  */
-import type { Application, BitmapText, Container, Graphics, GraphicsContext, Text } from 'pixi.js';
+import type { Application, BitmapText, Container, Graphics, Text } from 'pixi.js';
 import type { FrameEvaluation, Zone } from '$lib/metrics';
 import type { Estimate, Frame } from '$lib/protocol/types';
 import type { Layer } from '$lib/viewer/view';
@@ -25,6 +25,8 @@ type Pixi = typeof import('pixi.js');
 /** estimate labels are all shown only when at most this many estimates are on screen */
 const LABELS_AT_MOST = 40;
 const TRAIL_STEP_PX = 3;
+/** the ego chevron, nose along +x */
+const EGO_CHEVRON = [11, 0, -6, 7, -2, 0, -6, -7];
 const C = {
 	measurement: 0xc07a12,
 	estimate: 0x0e7c74,
@@ -132,14 +134,9 @@ export class SceneManager {
 		this.#app = app;
 		this.#geo = geo;
 		this.#host = host;
-		const { Container, Graphics, GraphicsContext, BitmapText, Text } = pixi;
+		const { Container, Graphics, BitmapText, Text } = pixi;
 		const root = app.stage;
 		const layer = () => root.addChild(new Container());
-		const ctx = (draw: (c: GraphicsContext) => void) => {
-			const c = new GraphicsContext();
-			draw(c);
-			return c;
-		};
 		this.#g.grid = root.addChild(new Graphics());
 		this.#g.zones = root.addChild(new Graphics());
 		this.#zoneText = new Pool(
@@ -159,9 +156,7 @@ export class SceneManager {
 					style: { fontFamily: 'IBM Plex Mono', fontSize: 10, fill: C.estimate }
 				})
 		);
-		this.#ego = root.addChild(
-			new Graphics(ctx((c) => c.poly([11, 0, -6, 7, -2, 0, -6, -7]).fill(C.ego)))
-		);
+		this.#ego = root.addChild(new Graphics());
 		this.#g.select = root.addChild(new Graphics());
 		this.#g.scale = root.addChild(new Graphics());
 		this.#scaleText = root.addChild(
@@ -220,6 +215,12 @@ export class SceneManager {
 			ink: hex(css.getPropertyValue('--sk-ink'), 0x1c2230)
 		};
 		this.#scaleText.style.fill = this.#theme.ink;
+		// the navy chevron keeps its colour; an outline in the page's ink keeps it visible on Night's dark panels
+		this.#ego
+			.clear()
+			.poly(EGO_CHEVRON)
+			.fill(C.ego)
+			.stroke({ width: 1.5, color: this.#theme.ink, alpha: 0.85, join: 'round' });
 		this.invalidate();
 	}
 
