@@ -122,6 +122,8 @@ test('a live run that had no frames when its page opened grows on the timeline, 
 		await expect(page.getByTestId('run-length')).not.toHaveText('/ T+00:00.000');
 		const latest = await liveSeq(page);
 		expect(latest).toBeGreaterThan(40);
+		// trails draw while following, from the frames shown live
+		expect(await page.evaluate(() => window.__skeinScene?.trail ?? 0)).toBeGreaterThan(20);
 
 		// back into what arrived: the frame shown comes from the stored run
 		for (let k = 0; k < 10; k++) await page.keyboard.press('ArrowLeft');

@@ -134,6 +134,7 @@ export class LiveFollow {
 		// the timeline grows with the run, so what arrived while following can be scrubbed afterwards
 		this.player.extend(relT);
 		const t = relT;
+		this.player.noteLive(m.frame);
 		this.player.frame = m.frame;
 		this.player.frameT = relT;
 		this.player.t = t;

@@ -71,6 +71,8 @@ export class RunPlayer {
 	#panelTimer: ReturnType<typeof setTimeout> | undefined;
 	#last = 0;
 	#evals = new WeakMap<Frame, FrameEvaluation>();
+	/** frames shown live in the last TRAIL_S seconds, oldest first */
+	#live: Frame[] = [];
 
 	constructor(run: PlayerRun, t0 = 0) {
 		this.run = run;
@@ -173,7 +175,20 @@ export class RunPlayer {
 	/** trail frames: the last TRAIL_S seconds up to the frame on screen (on hand when `arrivals` last changed) */
 	trail(): Frame[] {
 		void this.arrivals;
-		return this.cache ? this.cache.range(this.frameT - TRAIL_S, this.frameT) : [];
+		const cached = this.cache ? this.cache.range(this.frameT - TRAIL_S, this.frameT) : [];
+		if (this.#live.length === 0 || this.firstT === null) return cached;
+		// frames shown live after the newest one the cache holds
+		const to = this.firstT + this.frameT;
+		const after = cached.length > 0 ? cached[cached.length - 1].t : to - TRAIL_S - 1;
+		const live = this.#live.filter((f) => f.t > after && f.t >= to - TRAIL_S && f.t <= to);
+		return live.length === 0 ? cached : [...cached, ...live];
+	}
+
+	/** A frame shown live (the follower): kept for TRAIL_S seconds, so trails draw while following. */
+	noteLive(frame: Frame) {
+		this.#live.push(frame);
+		while (this.#live.length > 0 && this.#live[0].t < frame.t - TRAIL_S) this.#live.shift();
+		this.arrivals++;
 	}
 
 	/** the run has frames up to `duration` now (a followed live run); the timeline and the cache grow with it */

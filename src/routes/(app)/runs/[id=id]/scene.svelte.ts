@@ -70,6 +70,8 @@ declare global {
 			t: number | null;
 			drawnAt: number;
 			drawMs: number;
+			/** frames in the trail last drawn */
+			trail: number;
 		};
 	}
 }
@@ -163,7 +165,15 @@ export class SceneManager {
 			new Text({ text: '', style: { fontFamily: 'IBM Plex Mono', fontSize: 11, fill: 0x1c2230 } })
 		);
 
-		window.__skeinScene ??= { frames: 0, draws: 0, seq: null, t: null, drawnAt: 0, drawMs: 0 };
+		window.__skeinScene ??= {
+			frames: 0,
+			draws: 0,
+			seq: null,
+			t: null,
+			drawnAt: 0,
+			drawMs: 0,
+			trail: 0
+		};
 		// render on demand: a paused scene costs nothing, a playing one one render per new frame
 		app.ticker.remove(app.render, app);
 		app.ticker.add(() => {
@@ -429,6 +439,7 @@ export class SceneManager {
 		const stats = window.__skeinScene!;
 		stats.seq = inp?.frame?.seq ?? null;
 		stats.t = inp?.frame?.t ?? null;
+		stats.trail = inp?.trail.length ?? 0;
 		stats.drawnAt = performance.now();
 	}
 
