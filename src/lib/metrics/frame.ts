@@ -186,13 +186,21 @@ function frameGospa(
 		}
 	} else {
 		const { ix, iy } = layout;
+		// the estimates' positions read once, not once per truth object
+		const ex = new Float64Array(n);
+		const ey = new Float64Array(n);
+		for (let j = 0; j < n; j++) {
+			const x = estimates[j].x;
+			ex[j] = x[ix] ?? NaN;
+			ey[j] = x[iy] ?? NaN;
+		}
 		for (let i = 0; i < m; i++) {
 			const tx = truth[i].x[ix];
 			const ty = truth[i].x[iy];
 			if (tx === undefined || ty === undefined) return null;
 			for (let j = 0; j < n; j++) {
-				const dx = estimates[j].x[ix] - tx;
-				const dy = estimates[j].x[iy] - ty;
+				const dx = ex[j] - tx;
+				const dy = ey[j] - ty;
 				d2[i * n + j] = dx * dx + dy * dy;
 			}
 		}
