@@ -14,11 +14,19 @@
  *   (Bar-Shalom, Li, Kirubarajan 2001, ch. 5).
  */
 import { afterAll, beforeAll, describe, expect, inject, it } from 'vitest';
-import { chiSquareQuantile, normalCdf, type RunSummary } from '$lib/metrics';
+import {
+	chiSquareQuantile,
+	defaultMetricSettings,
+	normalCdf,
+	RunSummaryAccumulator,
+	type RunSummary
+} from '$lib/metrics';
 import { SkeinRigClient } from '$lib/protocol/client';
 import type { Estimate, Frame, TruthObject } from '$lib/protocol/types';
 import { sqlClient } from '$server/db';
 import { startMetricJobs, stopMetricJobs } from '$server/metrics/jobs';
+import { metricRun } from '$server/metrics/run';
+import { computeSummary, summaryFramesRead } from '$server/metrics/summary';
 import { Browserish } from '../support/client';
 import { makePerson } from '../support/factories';
 import { makeRigWithKey } from '../support/rigs';
@@ -324,6 +332,59 @@ describe('GET /api/runs/{id}/summary', () => {
 			{ summary: { frames: number; settings: { c: number } } }[]
 		>`select summary from runs where id = ${runId}`;
 		expect(cache.summary).toMatchObject({ frames: 5, settings: { c: 10 } });
+	});
+});
+
+describe('the summary of a run that grows', () => {
+	it('equals the summary of all its frames computed at once, each time it is asked for', async () => {
+		const rig = await makeRigWithKey('metrics-growing');
+		const client = new SkeinRigClient({
+			url: base.replace('http', 'ws') + '/ingest/v1',
+			key: rig.secret,
+			clientRunId: 'growing',
+			run: runSpec
+		});
+		const { runId: growing } = await client.start();
+		// the whole run once, in this process, with the same code (RunSummaryAccumulator)
+		const expectedAfter = (n: number) => {
+			const acc = new RunSummaryAccumulator({
+				stateFields: runSpec.state_fields,
+				settings: defaultMetricSettings,
+				coords: 'world'
+			});
+			frames.slice(0, n).forEach((f, seq) => acc.add({ ...f, seq }));
+			return acc.result();
+		};
+		const summary = async () =>
+			(await (await viewer.json(`/api/runs/${growing}/summary`, 'GET')).json()) as {
+				recomputed: boolean;
+				summary: RunSummary;
+			};
+		try {
+			for (const f of frames.slice(0, 3)) client.send(f);
+			await client.flush();
+			const first = await summary();
+			expect(first.recomputed).toBe(true);
+			expect(first.summary).toEqual(expectedAfter(3));
+			// in this process too: the summary after 3 frames reads 3 frames...
+			const read0 = summaryFramesRead();
+			expect(await computeSummary((await metricRun(growing))!)).toEqual(expectedAfter(3));
+			expect(summaryFramesRead() - read0).toBe(3);
+			for (const f of frames.slice(3)) client.send(f);
+			await client.flush();
+			// ...and the next one only the two frames stored since
+			const read1 = summaryFramesRead();
+			expect(await computeSummary((await metricRun(growing))!)).toEqual(
+				expectedAfter(frames.length)
+			);
+			expect(summaryFramesRead() - read1).toBe(2);
+			const second = await summary();
+			expect(second.recomputed).toBe(true);
+			expect(second.summary).toEqual(expectedAfter(frames.length));
+			expect(second.summary.frames).toBe(frames.length);
+		} finally {
+			await client.close();
+		}
 	});
 });
 

@@ -72,11 +72,63 @@ export function summaryUnits(lengthUnit: string, p: number): SummaryUnits {
 	};
 }
 
-/** One pass over the run's frames, a batch at a time. */
+interface Accumulated {
+	settings: string;
+	acc: RunSummaryAccumulator;
+	/** frames added, and the seq after the last one */
+	frames: number;
+	nextSeq: number;
+}
+
+/**
+ * The accumulators of the last summaries computed, by run (most recent last). A live run's summary is asked
+ * for again and again as it grows: the next computation adds only the frames stored since.
+ */
+const accumulated = new Map<string, Accumulated>();
+const KEEP_ACCUMULATED = 16;
+let framesRead = 0;
+
+/** Frames read by summary computations in this process so far (a test checks a growing run is read once). */
+export function summaryFramesRead(): number {
+	return framesRead;
+}
+
+/**
+ * One pass over the run's frames up to run.nextSeq, a batch at a time; when this process computed the run's
+ * summary before with the same settings, only the frames after that one are read.
+ */
 export async function computeSummary(run: MetricRun): Promise<RunSummary> {
-	const acc = new RunSummaryAccumulator(frameContext(run));
-	for await (const batch of storedFrames(run, {})) for (const { frame } of batch) acc.add(frame);
-	return acc.result();
+	const settings = canonicalJson(run.settings);
+	let entry = accumulated.get(run.id);
+	// taken out while in use: a concurrent computation for the run starts its own
+	accumulated.delete(run.id);
+	if (!entry || entry.settings !== settings || entry.nextSeq > run.nextSeq) {
+		entry = { settings, acc: new RunSummaryAccumulator(frameContext(run)), frames: 0, nextSeq: 0 };
+	}
+	const range = { fromSeq: entry.nextSeq, toSeq: run.nextSeq - 1 };
+	if (range.fromSeq <= range.toSeq) {
+		for await (const batch of storedFrames(run, range)) {
+			framesRead += batch.length;
+			for (const { seq, frame } of batch) {
+				entry.acc.add(frame);
+				entry.frames++;
+				entry.nextSeq = seq + 1;
+			}
+		}
+	}
+	entry.nextSeq = Math.max(entry.nextSeq, run.nextSeq);
+	// frames removed meanwhile (retention) or counted differently: start again from the stored frames
+	if (entry.frames !== run.frameCount && entry.frames !== 0) {
+		const fresh = new RunSummaryAccumulator(frameContext(run));
+		for await (const batch of storedFrames(run, { toSeq: run.nextSeq - 1 })) {
+			framesRead += batch.length;
+			for (const { frame } of batch) fresh.add(frame);
+		}
+		return fresh.result();
+	}
+	accumulated.set(run.id, entry);
+	while (accumulated.size > KEEP_ACCUMULATED) accumulated.delete(accumulated.keys().next().value!);
+	return entry.acc.result();
 }
 
 const inFlight = new Map<string, Promise<{ cached: CachedSummary; fresh: boolean }>>();
