@@ -124,6 +124,12 @@ test('a live run that had no frames when its page opened grows on the timeline, 
 		expect(latest).toBeGreaterThan(40);
 		// trails draw while following, from the frames shown live
 		expect(await page.evaluate(() => window.__skeinScene?.trail ?? 0)).toBeGreaterThan(20);
+		// the strips grow with the run too
+		await expect
+			.poll(async () => Number(await page.getByTestId('strips').getAttribute('data-points')), {
+				timeout: 10_000
+			})
+			.toBeGreaterThan(10);
 
 		// back into what arrived: the frame shown comes from the stored run
 		for (let k = 0; k < 10; k++) await page.keyboard.press('ArrowLeft');

@@ -36,6 +36,9 @@ export interface StripSpec {
 	bands?: [number, number, string][];
 }
 
+/** how often the strips of a followed live run are fetched again as it grows */
+const GROW_MS = 2000;
+
 export class StripsState {
 	series = $state.raw<Series | null>(null);
 	overview = $state.raw<Series | null>(null);
@@ -43,6 +46,8 @@ export class StripsState {
 	error = $state<string | null>(null);
 
 	#abort: AbortController | null = null;
+	#growTimer: ReturnType<typeof setTimeout> | null = null;
+	#grownAt = 0;
 
 	constructor(
 		private runId: string,
@@ -51,6 +56,24 @@ export class StripsState {
 		private settings: MetricSettings,
 		private dim: number
 	) {}
+
+	/**
+	 * A live run grew to `duration` (about `frames` frames): the whole-run series is fetched again, at most
+	 * every GROW_MS, unless the strips are zoomed in (the person's view stays).
+	 */
+	grow(duration: number, frames: number, px: number) {
+		if (!(duration > this.duration)) return;
+		this.duration = duration;
+		// no frame count known yet (a run that had no frames): as many buckets as the strips can show
+		this.frames = Math.max(this.frames, frames || Math.round(px / 2));
+		if (this.#growTimer !== null) return;
+		const wait = Math.max(0, this.#grownAt + GROW_MS - Date.now());
+		this.#growTimer = setTimeout(() => {
+			this.#growTimer = null;
+			this.#grownAt = Date.now();
+			if (!this.range) void this.load(0, this.duration, px);
+		}, wait);
+	}
 
 	async load(from: number, to: number, px: number) {
 		this.#abort?.abort();
@@ -210,5 +233,6 @@ export class StripsState {
 
 	destroy() {
 		this.#abort?.abort();
+		if (this.#growTimer !== null) clearTimeout(this.#growTimer);
 	}
 }
