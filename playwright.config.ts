@@ -1,4 +1,5 @@
 import { defineConfig } from '@playwright/test';
+import { chromiumLaunchOptions } from './tools/lib/chromium';
 
 const port = Number(process.env.E2E_PORT ?? 4317);
 
@@ -13,17 +14,7 @@ export default defineConfig({
 	use: {
 		baseURL: `http://127.0.0.1:${port}`,
 		viewport: { width: 1280, height: 800 },
-		launchOptions: {
-			executablePath: '/usr/bin/chromium',
-			args: [
-				'--no-sandbox',
-				'--disable-gpu',
-				'--disable-background-networking',
-				'--disable-component-update',
-				'--disable-sync',
-				'--no-first-run'
-			]
-		},
+		launchOptions: chromiumLaunchOptions,
 		trace: 'retain-on-failure',
 		screenshot: 'only-on-failure'
 	},

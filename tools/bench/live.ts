@@ -26,6 +26,7 @@ import {
 	getScenario,
 	simulateFrom
 } from '../../src/lib/tracking';
+import { chromiumLaunchOptions } from '../lib/chromium';
 
 const seconds = Number(process.env.BENCH_SECONDS ?? 20);
 const warmupS = 3;
@@ -189,19 +190,7 @@ async function main() {
 	);
 
 	// the browser viewer
-	const browser = withBrowser
-		? await chromium.launch({
-				executablePath: '/usr/bin/chromium',
-				args: [
-					'--no-sandbox',
-					'--disable-gpu',
-					'--disable-background-networking',
-					'--disable-component-update',
-					'--disable-sync',
-					'--no-first-run'
-				]
-			})
-		: null;
+	const browser = withBrowser ? await chromium.launch(chromiumLaunchOptions) : null;
 	const page = browser
 		? await browser.newPage({ viewport: { width: 1280, height: 800 }, baseURL: app.url })
 		: null;

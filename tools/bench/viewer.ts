@@ -22,6 +22,7 @@ import { startApp } from '../../tests/support/app';
 import { buildIfStale } from '../lib/build';
 import { clusterUrl, dropDatabase, ensureDatabase, startCluster, testCluster } from '../lib/pg';
 import { applyMigrations } from '../../src/lib/server/db/migrate';
+import { chromiumLaunchOptions } from '../lib/chromium';
 
 const root = resolve(import.meta.dirname, '..', '..');
 const packr = new Packr({ useRecords: false });
@@ -252,17 +253,7 @@ async function writeRuns(url: string) {
 }
 
 const app = await startApp({ DATABASE_URL: url });
-const browser = await chromium.launch({
-	executablePath: '/usr/bin/chromium',
-	args: [
-		'--no-sandbox',
-		'--disable-gpu',
-		'--disable-background-networking',
-		'--disable-component-update',
-		'--disable-sync',
-		'--no-first-run'
-	]
-});
+const browser = await chromium.launch(chromiumLaunchOptions);
 try {
 	const page = await browser.newPage({ viewport: { width: 1280, height: 800 }, baseURL: app.url });
 	await page.goto('/sign-in');
