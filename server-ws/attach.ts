@@ -8,12 +8,22 @@ import { keyExpiryChannel, keyRevokedChannel } from '../src/lib/server/rigs';
 import { closeSocketsForKey, createIngestEndpoint, setKeyExpiry } from './ingest/endpoint';
 import { postgresLiveDirectory } from './live/directory';
 import { createLiveEndpoint } from './live/endpoint';
+import { dispatchUpgrades } from './upgrade';
 
 export interface AttachedSockets {
 	close(): Promise<void>;
 }
 
 const hourMs = 3_600_000;
+
+function positiveInteger(name: string, fallback: number): number {
+	const raw = process.env[name];
+	if (raw === undefined || raw === '') return fallback;
+	const n = Number(raw);
+	if (!Number.isInteger(n) || n < 1)
+		throw new Error(`${name} must be a whole number of at least 1, got "${raw}"`);
+	return n;
+}
 
 /** Attaches Skein's socket endpoints (ingest, live viewers) to an HTTP server. */
 export function attachSockets(server: Server): AttachedSockets {
@@ -26,6 +36,7 @@ export function attachSockets(server: Server): AttachedSockets {
 		timing: {
 			graceMs: Number(process.env.INGEST_GRACE_SECONDS ?? 30) * 1000
 		},
+		maxConnectionsPerKey: positiveInteger('INGEST_MAX_CONNECTIONS_PER_KEY', 4),
 		onError: (err, context) => logger.error({ err, context }, 'ingest error')
 	});
 
@@ -34,13 +45,11 @@ export function attachSockets(server: Server): AttachedSockets {
 		onError: (err, context) => logger.error({ err, context }, 'live viewer error')
 	});
 
-	server.on('upgrade', (req, socket, head) => {
-		if (ingest.handleUpgrade(req, socket, head)) return;
-		if (live.handleUpgrade(req, socket, head)) return;
-		// not ours: in dev, Vite's own HMR socket handles its path; elsewhere nobody does
-		if (!(req.url ?? '').startsWith('/@') && server.listenerCount('upgrade') === 1)
-			socket.destroy();
-	});
+	dispatchUpgrades(
+		server,
+		[(...a) => ingest.handleUpgrade(...a), (...a) => live.handleUpgrade(...a)],
+		(err, context) => logger.error({ err, context }, 'socket upgrade error')
+	);
 
 	const listening = sql.listen(keyRevokedChannel, (keyId) => {
 		const n = closeSocketsForKey(keyId);

@@ -5,7 +5,7 @@
  *   const ingest = createIngestEndpoint({ store });
  *   server.on('upgrade', (req, socket, head) => { if (!ingest.handleUpgrade(req, socket, head)) … });
  */
-import { STATUS_CODES, type IncomingMessage } from 'node:http';
+import type { IncomingMessage } from 'node:http';
 import type { Duplex } from 'node:stream';
 import { WebSocketServer, type RawData, type WebSocket } from 'ws';
 import {
@@ -16,9 +16,10 @@ import {
 } from '../../src/lib/protocol/limits';
 import { CloseCode, INGEST_PATH } from '../../src/lib/protocol/types';
 import { sharedPubSub, type PubSub, type RunEvent } from '../pubsub';
+import { closeWithin, Heartbeat, refuse, requestPath } from '../upgrade';
 import type { RunChannel } from './run-channel';
 import { IngestSession, type SessionContext } from './session';
-import type { IngestStore, RigRef } from './store';
+import type { IngestStore, KeyResolution, RigRef } from './store';
 
 export interface IngestEndpointOptions {
 	store: IngestStore;
@@ -28,11 +29,12 @@ export interface IngestEndpointOptions {
 	timing?: Partial<SessionTiming>;
 	/** defaults to /ingest/v1 */
 	path?: string;
+	/** open connections one feed key may hold at once; further upgrades are refused with 429. Default 4. */
+	maxConnectionsPerKey?: number;
 	onError?: (error: unknown, context: string) => void;
 }
 
-/** A connection closed by the server that does not finish its closing handshake is cut after this. */
-const CLOSE_DEADLINE_MS = 1000;
+export const DEFAULT_MAX_CONNECTIONS_PER_KEY = 4;
 
 const ENDPOINTS = Symbol.for('skein.ingest.endpoints');
 
@@ -44,7 +46,6 @@ function liveEndpoints(): Set<IngestEndpoint> {
 interface Connection {
 	session: IngestSession;
 	ws: WebSocket;
-	alive: boolean;
 	/** closes the connection when its key expires */
 	expiry: ReturnType<typeof setTimeout> | null;
 }
@@ -56,17 +57,19 @@ export class IngestEndpoint {
 	readonly path: string;
 	readonly limits: IngestLimits;
 	readonly timing: SessionTiming;
+	readonly maxConnectionsPerKey: number;
 	#ctx: SessionContext;
 	#store: IngestStore;
 	#wss: WebSocketServer;
 	#connections = new Set<Connection>();
-	#pingTimer: ReturnType<typeof setInterval>;
+	#heartbeat: Heartbeat;
 	#closed = false;
 
 	constructor(options: IngestEndpointOptions) {
 		this.path = options.path ?? INGEST_PATH;
 		this.limits = resolveLimits(options.limits);
 		this.timing = resolveTiming(options.timing);
+		this.maxConnectionsPerKey = options.maxConnectionsPerKey ?? DEFAULT_MAX_CONNECTIONS_PER_KEY;
 		this.#store = options.store;
 		this.#ctx = {
 			store: options.store,
@@ -85,8 +88,7 @@ export class IngestEndpoint {
 			perMessageDeflate: false,
 			clientTracking: false
 		});
-		this.#pingTimer = setInterval(() => this.#ping(), this.timing.pingIntervalMs);
-		this.#pingTimer.unref();
+		this.#heartbeat = new Heartbeat(this.timing.pingIntervalMs);
 		liveEndpoints().add(this);
 	}
 
@@ -102,12 +104,11 @@ export class IngestEndpoint {
 
 	/**
 	 * Takes the upgrade if its path is the ingest path (returns true), else returns false and
-	 * leaves the socket alone. A missing or refused feed key is answered with a 401 and no socket.
+	 * leaves the socket alone. A missing or refused feed key is answered with a 401 and no socket,
+	 * a key already holding its most connections with a 429.
 	 */
 	handleUpgrade(req: IncomingMessage, socket: Duplex, head: Buffer): boolean {
-		const url = req.url ?? '/';
-		const q = url.indexOf('?');
-		if ((q === -1 ? url : url.slice(0, q)) !== this.path) return false;
+		if (requestPath(req.url) !== this.path) return false;
 		socket.on('error', () => socket.destroy());
 		if (this.#closed) {
 			refuse(socket, 503, 'server is shutting down');
@@ -118,33 +119,51 @@ export class IngestEndpoint {
 			refuse(socket, 401, 'missing feed key: send "Authorization: Bearer <feed key>"');
 			return true;
 		}
-		this.#store.resolveKey(key).then(
-			(resolution) => {
-				if (socket.destroyed) return;
-				if (!resolution.ok) {
-					refuse(socket, 401, resolution.reason);
-					return;
-				}
-				if (this.#closed) {
-					refuse(socket, 503, 'server is shutting down');
-					return;
-				}
-				this.#wss.handleUpgrade(req, socket, head, (ws) =>
-					this.#accept(ws, resolution.rig, req.socket.remoteAddress ?? null)
-				);
-			},
-			(error: unknown) => {
-				this.#ctx.onError(error, 'resolving a feed key failed');
-				refuse(socket, 503, 'feed keys cannot be checked right now; try again');
-			}
-		);
+		this.#admit(req, socket, head, key).catch((error: unknown) => {
+			this.#ctx.onError(error, 'admitting a rig failed');
+			refuse(socket, 500, 'the upgrade could not be handled');
+		});
 		return true;
+	}
+
+	async #admit(req: IncomingMessage, socket: Duplex, head: Buffer, key: string): Promise<void> {
+		let resolution: KeyResolution;
+		try {
+			resolution = await this.#store.resolveKey(key);
+		} catch (error) {
+			this.#ctx.onError(error, 'resolving a feed key failed');
+			return refuse(socket, 503, 'feed keys cannot be checked right now; try again');
+		}
+		if (socket.destroyed) return;
+		if (!resolution.ok) return refuse(socket, 401, resolution.reason);
+		if (this.#closed) return refuse(socket, 503, 'server is shutting down');
+		const { rig } = resolution;
+		if (this.#connectionsOf(rig.keyId) >= this.maxConnectionsPerKey)
+			return refuse(
+				socket,
+				429,
+				`too many connections with this feed key: at most ${this.maxConnectionsPerKey} at a time; close one first`
+			);
+		// ws completes the handshake synchronously, so the count above cannot be overtaken
+		this.#wss.handleUpgrade(req, socket, head, (ws) => {
+			try {
+				this.#accept(ws, rig, req.socket.remoteAddress ?? null);
+			} catch (error) {
+				this.#ctx.onError(error, 'accepting a rig failed');
+				ws.terminate();
+			}
+		});
+	}
+
+	#connectionsOf(keyId: string): number {
+		let n = 0;
+		for (const conn of this.#connections) if (conn.session.rig.keyId === keyId) n++;
+		return n;
 	}
 
 	#accept(ws: WebSocket, rig: RigRef, address: string | null): void {
 		const conn: Connection = {
 			ws,
-			alive: true,
 			expiry: null,
 			session: new IngestSession(this.#ctx, rig, {
 				send: (data) => {
@@ -157,9 +176,7 @@ export class IngestEndpoint {
 		ws.on('message', (data: RawData, isBinary: boolean) =>
 			conn.session.receive(toBytes(data), isBinary)
 		);
-		ws.on('pong', () => {
-			conn.alive = true;
-		});
+		this.#heartbeat.watch(ws);
 		ws.on('error', () => {});
 		ws.on('close', () => {
 			this.#connections.delete(conn);
@@ -170,17 +187,6 @@ export class IngestEndpoint {
 		this.#store
 			.touchKey(rig.keyId, address)
 			.catch((error: unknown) => this.#ctx.onError(error, 'touchKey failed'));
-	}
-
-	#ping(): void {
-		for (const conn of this.#connections) {
-			if (!conn.alive) {
-				conn.ws.terminate();
-				continue;
-			}
-			conn.alive = false;
-			conn.ws.ping();
-		}
 	}
 
 	/** A connection whose key expires at `expiresAt` (ms) is closed then: 4001 "key expired". */
@@ -226,7 +232,7 @@ export class IngestEndpoint {
 	async close(): Promise<void> {
 		if (this.#closed) return;
 		this.#closed = true;
-		clearInterval(this.#pingTimer);
+		this.#heartbeat.stop();
 		liveEndpoints().delete(this);
 		for (const conn of this.#connections)
 			conn.session.end(CloseCode.goingAway, 'server shutting down');
@@ -238,27 +244,6 @@ export class IngestEndpoint {
 
 export function createIngestEndpoint(options: IngestEndpointOptions): IngestEndpoint {
 	return new IngestEndpoint(options);
-}
-
-const byStore = new WeakMap<IngestStore, IngestEndpoint>();
-
-/**
- * Upgrade handler in function form: the endpoint for `store` is created on first use with these
- * options and reused afterwards. Returns false when the request is not for the ingest path.
- */
-export function handleIngestUpgrade(
-	req: IncomingMessage,
-	socket: Duplex,
-	head: Buffer,
-	store: IngestStore,
-	options: Omit<IngestEndpointOptions, 'store'> = {}
-): boolean {
-	let endpoint = byStore.get(store);
-	if (endpoint === undefined) {
-		endpoint = createIngestEndpoint({ ...options, store });
-		byStore.set(store, endpoint);
-	}
-	return endpoint.handleUpgrade(req, socket, head);
 }
 
 /**
@@ -282,28 +267,6 @@ function bearerKey(header: string | undefined): string | null {
 	if (header === undefined) return null;
 	const match = /^Bearer[ \t]+(\S+)[ \t]*$/i.exec(header);
 	return match === null ? null : match[1];
-}
-
-export function refuse(socket: Duplex, status: number, reason: string): void {
-	if (socket.destroyed) return;
-	const body = `${reason.replace(/[\r\n]+/g, ' ').slice(0, 200)}\n`;
-	const headers = [
-		`HTTP/1.1 ${status} ${STATUS_CODES[status] ?? ''}`,
-		'Content-Type: text/plain; charset=utf-8',
-		`Content-Length: ${Buffer.byteLength(body)}`,
-		'Connection: close'
-	];
-	if (status === 401) headers.push('WWW-Authenticate: Bearer');
-	socket.once('finish', () => socket.destroy());
-	socket.end(`${headers.join('\r\n')}\r\n\r\n${body}`);
-}
-
-export function closeWithin(ws: WebSocket, code: number, reason: string): void {
-	if (ws.readyState === ws.CLOSED) return;
-	ws.close(code, reason);
-	setTimeout(() => {
-		if (ws.readyState !== ws.CLOSED) ws.terminate();
-	}, CLOSE_DEADLINE_MS).unref();
 }
 
 function toBytes(data: RawData): Uint8Array {

@@ -6,6 +6,7 @@
  */
 import type { IncomingMessage } from 'node:http';
 import type { Duplex } from 'node:stream';
+import { parse as parseCookies } from 'cookie';
 import { Unpackr } from 'msgpackr';
 import { WebSocketServer, type RawData, type WebSocket } from 'ws';
 import { can, type Role } from '../../src/lib/permissions';
@@ -17,8 +18,8 @@ import {
 	type LiveRunInfo,
 	type LiveStats
 } from '../../src/lib/viewer/live-protocol';
-import { closeWithin, refuse } from '../ingest/endpoint';
 import { sharedPubSub, type PubSub, type RunEvent } from '../pubsub';
+import { closeWithin, Heartbeat, refuse, requestPath, safeDecode } from '../upgrade';
 import { BoardHub } from './board';
 import { encode, frameBody } from './encode';
 import { LiveViewer } from './viewer';
@@ -51,7 +52,6 @@ export interface LiveEndpointOptions {
 interface Connection {
 	viewer: LiveViewer;
 	ws: WebSocket;
-	alive: boolean;
 }
 
 const uuid = /^[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}$/i;
@@ -97,7 +97,8 @@ export class LiveEndpoint {
 	#hubs = new Map<string, RunHub>();
 	#board: BoardHub;
 	#connections = new Set<Connection>();
-	#timers: ReturnType<typeof setInterval>[];
+	#recheckTimer: ReturnType<typeof setInterval>;
+	#heartbeat: Heartbeat;
 	#unregister: () => void;
 	#closed = false;
 
@@ -114,11 +115,9 @@ export class LiveEndpoint {
 			hz: options.boardHz,
 			onError: this.#o.onError
 		});
-		this.#timers = [
-			setInterval(() => this.#ping(), options.pingMs ?? 15_000),
-			setInterval(() => void this.#recheck(), options.recheckMs ?? 60_000)
-		];
-		for (const t of this.#timers) t.unref();
+		this.#heartbeat = new Heartbeat(options.pingMs ?? 15_000);
+		this.#recheckTimer = setInterval(() => void this.#recheck(), options.recheckMs ?? 60_000);
+		this.#recheckTimer.unref();
 		this.#unregister = registerLiveStats(() => this.stats());
 	}
 
@@ -126,15 +125,16 @@ export class LiveEndpoint {
 		return { viewers: [...this.#connections].map((c) => c.viewer.stats()) };
 	}
 
-	/** Takes upgrades for /live and /live/{runId} (returns true); leaves every other path alone. */
+	/**
+	 * Takes upgrades for /live and /live/{runId} (returns true); leaves every other path alone. A run id
+	 * that is not one (broken percent-encoding included) is a 404 once the viewer is authenticated.
+	 */
 	handleUpgrade(req: IncomingMessage, socket: Duplex, head: Buffer): boolean {
-		const url = req.url ?? '/';
-		const q = url.indexOf('?');
-		const path = q === -1 ? url : url.slice(0, q);
+		const path = requestPath(req.url);
 		let runId: string | null;
 		if (path === LIVE_PATH || path === `${LIVE_PATH}/`) runId = null;
 		else if (path.startsWith(`${LIVE_PATH}/`) && !path.slice(LIVE_PATH.length + 1).includes('/'))
-			runId = decodeURIComponent(path.slice(LIVE_PATH.length + 1));
+			runId = safeDecode(path.slice(LIVE_PATH.length + 1)) ?? '';
 		else return false;
 		socket.on('error', () => socket.destroy());
 		if (this.#closed) {
@@ -146,8 +146,10 @@ export class LiveEndpoint {
 			refuse(socket, 403, 'cross-origin viewer sockets are not allowed');
 			return true;
 		}
-		const sessionId = cookie(req.headers.cookie, this.#o.sessionCookie);
-		if (sessionId === null) {
+		const sessionId = req.headers.cookie
+			? parseCookies(req.headers.cookie)[this.#o.sessionCookie]
+			: undefined;
+		if (!sessionId) {
 			refuse(socket, 401, 'sign in first: the request carries no session cookie');
 			return true;
 		}
@@ -165,7 +167,9 @@ export class LiveEndpoint {
 		sessionId: string,
 		runId: string | null
 	) {
-		const who = await this.#o.directory.authenticate(sessionId);
+		const who = plausibleSessionId(sessionId)
+			? await this.#o.directory.authenticate(sessionId)
+			: null;
 		if (who === null) return refuse(socket, 401, 'session expired or signed out: sign in again');
 		if (!can(who.role, 'runs:read'))
 			return refuse(socket, 403, `your role (${who.role}) may not read runs`);
@@ -219,9 +223,9 @@ export class LiveEndpoint {
 		stop: () => void
 	) {
 		this.#wss.handleUpgrade(req, socket, head, (ws) => {
-			const conn: Connection = { viewer, ws, alive: true };
+			const conn: Connection = { viewer, ws };
 			this.#connections.add(conn);
-			ws.on('pong', () => (conn.alive = true));
+			this.#heartbeat.watch(ws);
 			ws.on('error', () => {});
 			ws.on('message', (data: RawData, isBinary: boolean) => this.#receive(conn, data, isBinary));
 			ws.on('close', () => {
@@ -229,7 +233,12 @@ export class LiveEndpoint {
 				viewer.detach();
 				stop();
 			});
-			start(ws);
+			try {
+				start(ws);
+			} catch (error) {
+				this.#o.onError(error, 'starting a viewer failed');
+				ws.terminate();
+			}
 		});
 	}
 
@@ -278,17 +287,6 @@ export class LiveEndpoint {
 		for (const c of this.#connections) if (c.viewer === viewer) closeWithin(c.ws, code, reason);
 	}
 
-	#ping() {
-		for (const c of this.#connections) {
-			if (!c.alive) {
-				c.ws.terminate();
-				continue;
-			}
-			c.alive = false;
-			c.ws.ping();
-		}
-	}
-
 	/** A session signed out, expired or whose person was deactivated loses its sockets here (or on reconnect). */
 	async #recheck() {
 		const bySession = new Map<string, Connection[]>();
@@ -317,7 +315,8 @@ export class LiveEndpoint {
 	async close() {
 		if (this.#closed) return;
 		this.#closed = true;
-		for (const t of this.#timers) clearInterval(t);
+		clearInterval(this.#recheckTimer);
+		this.#heartbeat.stop();
 		this.#unregister();
 		for (const c of this.#connections)
 			closeWithin(c.ws, LiveCloseCode.goingAway, 'server shutting down');
@@ -332,16 +331,12 @@ export function createLiveEndpoint(options: LiveEndpointOptions): LiveEndpoint {
 	return new LiveEndpoint(options);
 }
 
-function cookie(header: string | undefined, name: string): string | null {
-	if (!header) return null;
-	for (const part of header.split(';')) {
-		const i = part.indexOf('=');
-		if (i > 0 && part.slice(0, i).trim() === name) {
-			const value = part.slice(i + 1).trim();
-			return value === '' ? null : decodeURIComponent(value);
-		}
-	}
-	return null;
+/**
+ * Session ids are short printable ASCII; anything else (control characters from a decoded `%00`, a megabyte
+ * of cookie) cannot be a session and is not looked up.
+ */
+function plausibleSessionId(id: string): boolean {
+	return /^[\x21-\x7e]{1,255}$/.test(id);
 }
 
 function sameHost(origin: string, host: string | undefined): boolean {
