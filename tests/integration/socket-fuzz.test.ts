@@ -18,6 +18,7 @@ import {
 	exchange,
 	rawRequest,
 	readUntilClosed,
+	slam,
 	wsFrame,
 	type RawAnswer,
 	type RawHeader
@@ -347,6 +348,11 @@ async function one(
 	}
 	const path = f.paths();
 	const req = f.request(path, roll < 0.45);
+	if (roll > 0.9) {
+		// the client resets the connection while its upgrade is being handled
+		await slam(app.port, req.bytes, Math.floor(f.chance() * 20));
+		return;
+	}
 	const answer: RawAnswer = await exchange(app.port, req.bytes, req.complete ? 5000 : 1500);
 	const kind = path.startsWith('/ingest/v1')
 		? 'ingest'

@@ -81,7 +81,9 @@ export interface FrameSpec {
 export function wsFrame(f: FrameSpec): Buffer {
 	const mask = f.mask ?? true;
 	const len = f.announce ?? BigInt(f.payload.length);
-	const parts: Buffer[] = [Buffer.from([((f.fin ?? true) ? 0x80 : 0) | ((f.rsv ?? 0) << 4) | f.opcode])];
+	const parts: Buffer[] = [
+		Buffer.from([((f.fin ?? true) ? 0x80 : 0) | ((f.rsv ?? 0) << 4) | f.opcode])
+	];
 	const m = mask ? 0x80 : 0;
 	if (len < 126n) parts.push(Buffer.from([m | Number(len)]));
 	else if (len < 65536n) {
@@ -135,5 +137,19 @@ export function readUntilClosed(socket: Socket, first: Buffer, ms: number): Prom
 		socket.on('data', (chunk: Buffer) => (buf = Buffer.concat([buf, chunk])));
 		socket.on('close', end);
 		socket.on('error', end);
+	});
+}
+
+/** Writes `bytes`, then after `ms` resets the connection (TCP RST) without reading anything. */
+export function slam(port: number, bytes: Buffer, ms: number): Promise<void> {
+	return new Promise((resolve) => {
+		const socket = connect({ port, host: '127.0.0.1' }, () => {
+			socket.write(bytes);
+			setTimeout(() => {
+				socket.resetAndDestroy();
+				resolve();
+			}, ms);
+		});
+		socket.on('error', () => resolve());
 	});
 }

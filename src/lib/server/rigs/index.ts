@@ -399,9 +399,8 @@ export async function rotateFeedKey(actor: Actor, id: string, graceMinutes: numb
 			.set({ expiresAt: oldEnd, rotatedTo: made.key.id })
 			.where(eq(k.id, id))
 			.returning(keyColumns);
-		if (oldEnd.getTime() <= now) await notifyStopped(tx, [id]);
-		else
-			await tx.execute(sql`select pg_notify(${keyExpiryChannel}, ${`${id} ${oldEnd.getTime()}`})`);
+		// with no grace the old key expires now (it is not revoked): its sockets close with "key expired"
+		await tx.execute(sql`select pg_notify(${keyExpiryChannel}, ${`${id} ${oldEnd.getTime()}`})`);
 		await auditIn(tx, actor, 'feed_key.rotate', old.rigName, {
 			keyId: id,
 			prefix: old.prefix,
