@@ -100,6 +100,19 @@ describe('malformed upgrades', () => {
 });
 
 describe('connections per feed key', () => {
+	it('refuses to start with a limit that is not a whole number of at least 1, naming the variable', async () => {
+		const outcome = await startApp({ INGEST_MAX_CONNECTIONS_PER_KEY: 'lots' }).then(
+			async (started) => {
+				await started.stop();
+				return 'the app started';
+			},
+			(error: Error) => error.message
+		);
+		expect(outcome).toContain(
+			'INGEST_MAX_CONNECTIONS_PER_KEY must be a whole number of at least 1, got "lots"'
+		);
+	});
+
 	it(`holds at most ${perKey} per key, refuses the next with 429, and takes one again after a close`, async () => {
 		const rig = await makeRigWithKey('per-key');
 		const other = await makeRigWithKey('per-key-other');
