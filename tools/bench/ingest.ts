@@ -3,7 +3,7 @@
  * (fsync and synchronous_commit on), and in the same run the rate of a raw COPY of the same encoded rows
  * into the same table. Frames: 40 2-D measurements, 20 4-D estimates with 4×4 P and r, 20 truth objects.
  */
-import { seededRandom as rng } from '../../src/lib/metrics/random';
+import { seededRandom as rng } from '../../src/lib/random';
 import { Packr } from 'msgpackr';
 import { performance } from 'node:perf_hooks';
 import { resolve } from 'node:path';

@@ -16,7 +16,7 @@ import { chromium, type Page } from '@playwright/test';
 import { profileSummary, startProfile } from './viewer-profile';
 import { frameRow } from '../../src/lib/server/ingest/store';
 import { defaultMetricSettings } from '../../src/lib/metrics/settings';
-import { seededRandom } from '../../src/lib/metrics/random';
+import { seededRandom } from '../../src/lib/random';
 import type { Frame } from '../../src/lib/protocol/types';
 import { startApp } from '../../tests/support/app';
 import { buildIfStale } from '../lib/build';
