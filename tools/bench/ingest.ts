@@ -3,6 +3,7 @@
  * (fsync and synchronous_commit on), and in the same run the rate of a raw COPY of the same encoded rows
  * into the same table. Frames: 40 2-D measurements, 20 4-D estimates with 4×4 P and r, 20 truth objects.
  */
+import { percentile as pct } from '../../src/lib/percentile';
 import { seededRandom as rng } from '../../src/lib/random';
 import { Packr } from 'msgpackr';
 import { performance } from 'node:perf_hooks';
@@ -151,12 +152,6 @@ function template(f: ReturnType<typeof benchFrame>): Buffer {
 	for (const k of ['ego', 'measurements', 'estimates', 'truth'] as const)
 		parts.push(packr.pack(k), packr.pack(f[k]));
 	return Buffer.concat(parts);
-}
-
-function pct(xs: number[], p: number) {
-	if (!xs.length) return NaN;
-	const s = [...xs].sort((a, b) => a - b);
-	return s[Math.min(s.length - 1, Math.floor((p / 100) * s.length))];
 }
 
 async function main() {

@@ -14,6 +14,7 @@ import postgres from 'postgres';
 import WebSocket from 'ws';
 import { hashSecret, newSecret, secretPrefix } from '../../src/lib/server/auth/tokens';
 import { applyMigrations } from '../../src/lib/server/db/migrate';
+import { percentile as pct } from '../../src/lib/percentile';
 import type { LiveServerMessage } from '../../src/lib/viewer/live-protocol';
 import { Browserish } from '../../tests/support/client';
 import { startApp } from '../../tests/support/app';
@@ -76,12 +77,6 @@ async function benchRig(
 		if (measuring) sendLag.push(Date.now() - frame.t * 1000);
 	}
 	await client.close();
-}
-
-function pct(xs: number[], p: number): number {
-	if (!xs.length) return NaN;
-	const s = [...xs].sort((a, b) => a - b);
-	return s[Math.min(s.length - 1, Math.floor((p / 100) * s.length))];
 }
 
 const row = (label: string, xs: number[]) =>

@@ -16,6 +16,7 @@ import { chromium, type Page } from '@playwright/test';
 import { profileSummary, startProfile } from './viewer-profile';
 import { frameRow } from '../../src/lib/server/ingest/store';
 import { defaultMetricSettings } from '../../src/lib/metrics/settings';
+import { percentile as pct } from '../../src/lib/percentile';
 import { seededRandom } from '../../src/lib/random';
 import type { Frame } from '../../src/lib/protocol/types';
 import { startApp } from '../../tests/support/app';
@@ -187,9 +188,6 @@ async function seeks(page: Page, runId: string, duration: number, clicks = 25): 
 	}
 	return out;
 }
-
-const pct = (xs: number[], p: number) =>
-	[...xs].sort((a, b) => a - b)[Math.min(xs.length - 1, Math.ceil((p / 100) * xs.length) - 1)];
 
 const names = { heavy: 'crowd 300/600', empty: 'empty', long: 'one hour at 20 Hz' };
 const reusable = args.has('--reuse') && (await benchRuns(await benchDatabase(true)));
