@@ -35,7 +35,10 @@ export interface ApiOperation {
 	description?: string;
 	parameters: ApiParameter[];
 	requestBody?: { required: true; content: { 'application/json': { schema: JsonSchema } } };
-	responses: Record<string, { description: string; content?: Record<string, unknown> }>;
+	responses: Record<
+		string,
+		{ description: string; content?: Record<string, unknown> } | { $ref: string }
+	>;
 	security: Record<string, string[]>[];
 	'x-skein-access': Access;
 }
@@ -46,6 +49,8 @@ export interface ApiDocument {
 	servers: { url: string }[];
 	tags: { name: string }[];
 	paths: Record<string, Partial<Record<Method, ApiOperation>>>;
+	/** each error code with its HTTP status */
+	'x-skein-errors': Record<ErrorCode, number>;
 	components: {
 		schemas: { Error: JsonSchema };
 		responses: Record<string, { description: string; content: Record<string, unknown> }>;
@@ -129,7 +134,7 @@ function responses(routeId: string, op: Operation, access: Access): ApiOperation
 		content['application/json'] = {};
 		for (const type of op.alsoAs ?? []) content[type] = {};
 	}
-	const out: Record<string, unknown> = {
+	const out: ApiOperation['responses'] = {
 		[status]: { description: op.answers, ...(status === 204 ? {} : { content }) }
 	};
 	if (op.body) out[400] = errorRef('BadRequest');
@@ -139,7 +144,7 @@ function responses(routeId: string, op: Operation, access: Access): ApiOperation
 	}
 	if (routeId.includes('[') || routeId === '/api/dev/mail') out[404] = errorRef('NotFound');
 	if (op.query || op.body) out[422] = errorRef('Invalid');
-	return out as ApiOperation['responses'];
+	return out;
 }
 
 function operation(routeId: string, method: Method, op: Operation): ApiOperation {
@@ -203,6 +208,7 @@ export function apiDocument(origin: string): ApiDocument {
 		servers: [{ url: origin }],
 		tags: tags.map((name) => ({ name })),
 		paths,
+		'x-skein-errors': statusOf,
 		components: {
 			schemas: { Error: jsonSchema(apiErrorSchema) },
 			responses: Object.fromEntries(
