@@ -1,8 +1,15 @@
 import { readdirSync, readFileSync } from 'node:fs';
 import { join, relative, resolve } from 'node:path';
 import { describe, expect, it } from 'vitest';
+import * as metricSettings from '$lib/metrics/settings';
+import * as auditValidation from '$lib/validation/audit';
+import * as peopleValidation from '$lib/validation/people';
+import * as rigsValidation from '$lib/validation/rigs';
+import * as runsValidation from '$lib/validation/runs';
 import { errorResponse } from '$server/api';
+import * as metricsQuery from '$server/metrics/query';
 import { apiDocument, apiErrorSchema, openApiPath } from './document';
+import { operations } from './operations';
 
 const apiDir = resolve(import.meta.dirname, '../../../routes/api');
 
@@ -41,6 +48,46 @@ describe('the API document', () => {
 			documented.filter((e) => !served.includes(e)),
 			'not served'
 		).toEqual([]);
+	});
+
+	it('takes each query and body schema from what the endpoint validates with', () => {
+		const modules = [
+			auditValidation,
+			peopleValidation,
+			rigsValidation,
+			runsValidation,
+			metricSettings,
+			metricsQuery
+		];
+		const nameOf = (schema: unknown) =>
+			modules.flatMap((m) => Object.entries(m)).find(([, v]) => v === schema)?.[0];
+		// the settings endpoint validates through checkSettings, which parses with metricSettingsSchema
+		const via: Record<string, string> = { metricSettingsSchema: 'checkSettings' };
+		const wrong: string[] = [];
+		for (const [routeId, byMethod] of Object.entries(operations)) {
+			const file = resolve(apiDir, '..', `.${routeId}`, '+server.ts');
+			const source = readFileSync(file, 'utf8');
+			for (const [method, op] of Object.entries(byMethod)) {
+				for (const schema of [op.query, op.body]) {
+					if (!schema) continue;
+					const name = nameOf(schema);
+					if (!name || !new RegExp(`\\b${via[name] ?? name}\\b`).test(source))
+						wrong.push(`${method} ${routeId}: ${name ?? 'a schema from elsewhere'}`);
+				}
+			}
+		}
+		expect(wrong).toEqual([]);
+	});
+
+	it('documents a query or body wherever an endpoint reads one', () => {
+		const missing: string[] = [];
+		for (const [routeId, byMethod] of Object.entries(operations)) {
+			const source = readFileSync(resolve(apiDir, '..', `.${routeId}`, '+server.ts'), 'utf8');
+			const reads = /readQuery\(|readJson\(|safeParse\(|checkSettings\(/.test(source);
+			const documents = Object.values(byMethod).some((op) => op.query || op.body);
+			if (reads && !documents) missing.push(routeId);
+		}
+		expect(missing).toEqual([]);
 	});
 
 	it('is OpenAPI 3.1 with path parameters, query parameters and bodies from the zod schemas', () => {
