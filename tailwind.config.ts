@@ -1,4 +1,5 @@
 import type { Config } from 'tailwindcss';
+import { setColors } from './src/lib/set-colors';
 
 /** Skein's design tokens (shared/DESIGN.md). Theme colours switch through CSS variables set in app.css. */
 export default {
@@ -14,13 +15,7 @@ export default {
 				accent: 'var(--sk-accent)',
 				danger: 'var(--sk-danger)',
 				ok: 'var(--sk-ok)',
-				set: {
-					measurement: '#C07A12',
-					estimate: '#0E7C74',
-					truth: '#8E2C66',
-					ego: '#243B6B',
-					zone: '#4F46E5'
-				}
+				set: setColors
 			},
 			fontFamily: {
 				sans: ['"IBM Plex Sans"', 'system-ui', 'sans-serif'],

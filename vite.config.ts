@@ -12,7 +12,7 @@ export default defineConfig({
 				extends: true,
 				test: {
 					name: 'unit',
-					include: ['src/**/*.test.ts'],
+					include: ['src/**/*.test.ts', 'server-ws/**/*.test.ts', 'tools/**/*.test.ts'],
 					environment: 'node'
 				}
 			},

@@ -2,8 +2,8 @@
  * MessagePack encoding of the viewer socket's messages. A committed frame is encoded once per run, whatever
  * the number of viewers; each viewer's counts are spliced in front of that body when it is sent.
  */
-import { Packr } from 'msgpackr';
 import type { FrameMetrics } from '../../src/lib/metrics/frame';
+import { pack } from '../../src/lib/msgpack';
 import type { Frame } from '../../src/lib/protocol/types';
 import type {
 	BoardMessage,
@@ -12,12 +12,10 @@ import type {
 	StateMessage
 } from '../../src/lib/viewer/live-protocol';
 
-const packr = new Packr({ useRecords: false, variableMapSize: true });
-
 export function encode(
 	message: HelloMessage | StateMessage | PongMessage | BoardMessage
 ): Uint8Array {
-	return packr.pack(message);
+	return pack(message);
 }
 
 /** Absent sets stay absent: keys with undefined values are left out instead of becoming MessagePack extensions. */
@@ -35,11 +33,11 @@ export function frameBody(
 	frame: Frame,
 	metrics: FrameMetrics | null
 ): Uint8Array {
-	return packr.pack({ seq, t, committed_at: committedAt, frame: defined(frame), metrics });
+	return pack({ seq, t, committed_at: committedAt, frame: defined(frame), metrics });
 }
 
 const countsHead = (skipped: number, quarantined: number) =>
-	packr.pack({ type: 'frame', skipped, quarantined }) as Uint8Array;
+	pack({ type: 'frame', skipped, quarantined }) as Uint8Array;
 
 /** Entries and header length of a map header (fixmap, map 16, map 32). */
 function mapHeader(bytes: Uint8Array): { entries: number; length: number } {

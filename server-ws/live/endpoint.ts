@@ -7,8 +7,8 @@
 import type { IncomingMessage } from 'node:http';
 import type { Duplex } from 'node:stream';
 import { parse as parseCookies } from 'cookie';
-import { Unpackr } from 'msgpackr';
 import { WebSocketServer, type RawData, type WebSocket } from 'ws';
+import { unpack } from '../../src/lib/msgpack';
 import { can, type Role } from '../../src/lib/permissions';
 import {
 	LIVE_PATH,
@@ -55,7 +55,6 @@ interface Connection {
 }
 
 const uuid = /^[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}$/i;
-const unpackr = new Unpackr({ useRecords: false, mapsAsObjects: true, int64AsType: 'number' });
 
 /** Viewers of one run, behind one subscription. */
 class RunHub {
@@ -246,7 +245,7 @@ export class LiveEndpoint {
 		let msg: unknown;
 		try {
 			const bytes = Array.isArray(data) ? Buffer.concat(data) : Buffer.from(data as ArrayBuffer);
-			msg = isBinary ? unpackr.unpack(bytes) : JSON.parse(bytes.toString('utf8'));
+			msg = isBinary ? unpack(bytes) : JSON.parse(bytes.toString('utf8'));
 		} catch {
 			return;
 		}

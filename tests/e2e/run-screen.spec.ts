@@ -4,7 +4,18 @@
  * reopened by its link. A viewer sees pins but cannot pin.
  */
 import { expect, test, type Page } from '@playwright/test';
-import { admin, viewer, makeRigWithKey, signIn } from './support';
+import {
+	admin,
+	viewer,
+	makeRigWithKey,
+	paintedColours,
+	screenPixels,
+	setTheme,
+	signIn,
+	themePalette,
+	type ThemeName
+} from './support';
+import { setColors } from '../../src/lib/set-colors';
 import { SkeinRigClient } from '../../src/lib/protocol/client';
 import { MEASUREMENT_FIELDS, STATE_FIELDS, simulate } from '../../src/lib/tracking';
 
@@ -13,6 +24,26 @@ let runId = '';
 let rigName = '';
 
 const playhead = (page: Page) => page.getByTestId('playhead-time');
+/**
+ * Each theme paints its own page and panel colours, and the scene drew on its panel background: the
+ * canvas's most common colour is the theme's panel colour, yet not all of it, and the teal estimates show.
+ */
+async function expectTheme(page: Page, theme: ThemeName) {
+	await expect.poll(() => paintedColours(page)).toEqual(themePalette[theme]);
+	await expect
+		.poll(async () => {
+			const pixels = await screenPixels(page, page.getByTestId('scene-canvas'), {
+				estimate: setColors.estimate
+			});
+			return {
+				background: pixels.dominant,
+				drawn: pixels.dominantShare < 0.99,
+				estimates: pixels.near.estimate > 20
+			};
+		})
+		.toEqual({ background: themePalette[theme].panel, drawn: true, estimates: true });
+}
+
 const seconds = (text: string) => {
 	const m = text.match(/T\+(\d+):(\d+\.\d+)/)!;
 	return Number(m[1]) * 60 + Number(m[2]);
@@ -97,6 +128,7 @@ test('open a run: play, pause, step, seek by URL, layers, select, pin and reopen
 	await expect(page.getByTestId('inspector-title')).toContainText('estimate');
 	const selected = await page.getByTestId('inspector-title').innerText();
 
+	await expectTheme(page, 'paper');
 	await page.screenshot({ path: 'test-results/artifacts/run-screen-paper.png' });
 
 	await page.keyboard.press('p');
@@ -127,8 +159,8 @@ test('open a run: play, pause, step, seek by URL, layers, select, pin and reopen
 
 	await page.goto(`/runs/${runId}?t=30`);
 	await expect(page.getByTestId('count-estimates')).not.toHaveText('—');
-	await page.evaluate(() => (document.documentElement.dataset.theme = 'night'));
-	await page.waitForTimeout(300);
+	await setTheme(page, 'night');
+	await expectTheme(page, 'night');
 	await page.screenshot({ path: 'test-results/artifacts/run-screen-night.png' });
 });
 

@@ -2,9 +2,9 @@
  * Durability of ingest: resumes after dropped sockets, a kill -9 of the app mid-stream, and a second rig
  * that loses nothing while a first one sends garbage.
  */
-import { seededRandom as prng } from '$lib/metrics/random';
+import { unpack } from '$lib/msgpack';
+import { seededRandom as prng } from '$lib/random';
 import { describe, expect, inject, it } from 'vitest';
-import { unpack } from 'msgpackr';
 import WebSocket from 'ws';
 import { SkeinRigClient } from '$lib/protocol/client';
 import type { Frame } from '$lib/protocol/types';

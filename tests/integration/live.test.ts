@@ -4,9 +4,9 @@
  * (bounded per-viewer outbox, skipped counts), state changes, and the Live board's summaries.
  */
 import { randomUUID } from 'node:crypto';
-import { Unpackr } from 'msgpackr';
 import { afterAll, beforeAll, describe, expect, inject, it } from 'vitest';
 import WebSocket from 'ws';
+import { unpack } from '$lib/msgpack';
 import { SkeinRigClient, type FrameInput } from '$lib/protocol/client';
 import type {
 	BoardMessage,
@@ -22,7 +22,6 @@ import { Browserish } from '../support/client';
 import { makePerson } from '../support/factories';
 import { makeRigWithKey } from '../support/rigs';
 
-const unpackr = new Unpackr({ useRecords: false, mapsAsObjects: true, int64AsType: 'number' });
 const run = {
 	name: 'live follow',
 	state_fields: ['x', 'y', 'vx', 'vy'],
@@ -55,7 +54,7 @@ class Watcher {
 	#waiters: (() => void)[] = [];
 	constructor(readonly ws: WebSocket) {
 		ws.on('message', (d) => {
-			this.messages.push(unpackr.unpack(d as Buffer) as LiveServerMessage);
+			this.messages.push(unpack(d as Buffer) as LiveServerMessage);
 			this.#wake();
 		});
 		ws.on('close', (code, reason) => {
@@ -207,7 +206,7 @@ describe('viewer socket: frames', () => {
 		const sql = sqlClient();
 		const durable: Promise<number>[] = [];
 		w.ws.on('message', (d) => {
-			const m = unpackr.unpack(d as Buffer) as LiveServerMessage;
+			const m = unpack(d as Buffer) as LiveServerMessage;
 			if (m.type === 'frame')
 				durable.push(
 					sql<

@@ -1,7 +1,8 @@
 /**
- * The simulated rig streams through the real protocol and survives a server restart: after the app is
- * killed and started again on the same port, the rig resumes and the run holds every frame once,
- * identical to what the simulator generates for that seed.
+ * The simulated rig streams through the real protocol and survives a server restart: the app is killed
+ * mid-run (some frames stored, not all) and started again on the same port; the rig sees the drop, resumes
+ * the same run at the first frame not stored, and the run holds every frame once, identical to what the
+ * simulator generates for that seed.
  */
 import { spawnSync } from 'node:child_process';
 import { resolve } from 'node:path';
@@ -18,6 +19,7 @@ describe('simulated rig', () => {
 		let app = await startApp({ PORT: String(port) });
 		const rig = await makeRigWithKey('sim');
 		const startEpoch = 1_790_400_000;
+		const log: string[] = [];
 		const streaming = runSimulatedRig({
 			url: `ws://127.0.0.1:${port}/ingest/v1`,
 			key: rig.secret,
@@ -26,23 +28,39 @@ describe('simulated rig', () => {
 			speed: 20,
 			durationS: 40,
 			startEpoch,
-			clientRunId: 'restart-test'
+			clientRunId: 'restart-test',
+			log: (line) => log.push(line)
 		});
 		// let part of the run through, then kill the server under the rig and bring it back
 		const sql = sqlClient();
-		for (let i = 0; i < 200; i++) {
+		const stored = async () => {
 			const [r] = await sql<
 				{ n: number }[]
 			>`select coalesce(max(frame_count), 0)::int as n from runs where client_run_id = 'restart-test'`;
-			if (r.n > 100) break;
+			return r.n;
+		};
+		for (let i = 0; i < 200; i++) {
+			if ((await stored()) > 100) break;
 			await new Promise((res) => setTimeout(res, 50));
 		}
 		await app.stop('SIGKILL');
+		const atKill = await stored();
 		await new Promise((res) => setTimeout(res, 500));
 		app = await startApp({ PORT: String(port) });
 		try {
+			// the kill came mid-run: some frames were stored, not all of them
+			expect(atKill).toBeGreaterThan(100);
+			expect(atKill).toBeLessThan(800);
 			const result = await streaming;
 			expect(result.frames).toBe(800);
+			// the rig lost its server, and resumed the same run on the new one where the old one stopped
+			expect(log.some((l) => l.startsWith('disconnected'))).toBe(true);
+			const resumed = log
+				.map((l) => /^resumed run (\S+) at seq (\d+)$/.exec(l))
+				.filter((m) => m !== null);
+			expect(resumed).toHaveLength(1);
+			expect(resumed[0][1]).toBe(result.runId);
+			expect(Number(resumed[0][2])).toBe(atKill);
 			const rows = await sql<{ seq: number; n: number }[]>`
 				select seq::int, count(*)::int as n from frames where run_id = ${result.runId} group by seq order by seq`;
 			expect(rows).toHaveLength(800);

@@ -12,7 +12,7 @@ import {
 	type IngestEndpointOptions
 } from '../../server-ws/ingest/endpoint';
 import { createInProcessPubSub, type PubSub, type RunEvent } from '../../server-ws/pubsub';
-import { seededRandom } from '../../src/lib/metrics/test-support';
+import { seededRandom } from '../../src/lib/random';
 import { decodeMessage, encodeMessage } from '../../src/lib/protocol/codec';
 import type { Encoding } from '../../src/lib/protocol/types';
 import { MemoryIngestStore } from './memory-store';

@@ -10,7 +10,7 @@ import { CholeskyDecomposition, Matrix, determinant, inverse } from 'ml-matrix';
 import { GmPhdFilter, type BirthComponent } from '../../src/lib/tracking/gmphd';
 import * as la from '../../src/lib/tracking/linalg';
 import { cvProcessNoise, cvTransition } from '../../src/lib/tracking/motion';
-import { Rng } from '../../src/lib/tracking/random';
+import { Rng } from '../../src/lib/random';
 import { SensorView, type SensorSpec } from '../../src/lib/tracking/sensor';
 
 const simpleLinalg = createRequire(import.meta.url)(

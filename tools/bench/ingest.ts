@@ -3,8 +3,9 @@
  * (fsync and synchronous_commit on), and in the same run the rate of a raw COPY of the same encoded rows
  * into the same table. Frames: 40 2-D measurements, 20 4-D estimates with 4×4 P and r, 20 truth objects.
  */
-import { seededRandom as rng } from '../../src/lib/metrics/random';
-import { Packr } from 'msgpackr';
+import { pack, unpack } from '../../src/lib/msgpack';
+import { percentile as pct } from '../../src/lib/percentile';
+import { seededRandom as rng } from '../../src/lib/random';
 import { performance } from 'node:perf_hooks';
 import { resolve } from 'node:path';
 import postgres from 'postgres';
@@ -25,9 +26,14 @@ import {
 } from '../../src/lib/server/ingest/copy-binary';
 import { frameRow } from '../../src/lib/server/ingest/frame-rows';
 
+/** The shared MessagePack encoding as a Buffer view (no copy), for Buffer.concat and hex. */
+const packBuffer = (value: unknown): Buffer => {
+	const bytes = pack(value);
+	return Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength);
+};
+
 const seconds = Number(process.env.BENCH_SECONDS ?? 8);
 const root = resolve(import.meta.dirname, '../..');
-const packr = new Packr({ useRecords: false });
 const stateFields = ['x', 'y', 'vx', 'vy'];
 const benchRunId = '00000000-0000-4000-8000-00000000b00c';
 const rowCtx = { stateFields, settings: defaultMetricSettings, coords: 'world' as const };
@@ -82,7 +88,7 @@ async function benchRig(
 	const latencies: number[] = [];
 	let wake: (() => void) | null = null;
 	ws.on('message', (d) => {
-		const m = packr.unpack(d as Buffer) as Record<string, unknown>;
+		const m = unpack(d as Buffer) as Record<string, unknown>;
 		if (m.type === 'ack') {
 			const now = performance.now();
 			for (let s = acked + 1; s <= (m.seq as number); s++) latencies.push(now - sentAt[s]);
@@ -95,7 +101,7 @@ async function benchRig(
 	const opened = await new Promise<Record<string, unknown>>((res) => {
 		inbox.push(res);
 		ws.send(
-			packr.pack({
+			packBuffer({
 				type: 'open',
 				client_run_id: id,
 				run: { name: id, state_fields: stateFields, measurement_fields: ['x', 'y'] }
@@ -126,7 +132,7 @@ async function benchRig(
 		if (seq % 32 === 0) await new Promise((r) => setImmediate(r));
 	}
 	while (acked < seq - 1) await new Promise<void>((r) => (wake = r));
-	ws.send(packr.pack({ type: 'close' }));
+	ws.send(packBuffer({ type: 'close' }));
 	await new Promise((r) => ws.once('close', r));
 	return { frames: seq, latencies };
 }
@@ -137,26 +143,20 @@ async function benchRig(
  */
 const head = Buffer.concat([
 	Buffer.from([0x87]),
-	packr.pack('type'),
-	packr.pack('frame'),
-	packr.pack('seq'),
+	packBuffer('type'),
+	packBuffer('frame'),
+	packBuffer('seq'),
 	Buffer.from([0xce, 0, 0, 0, 0])
 ]);
 const seqOffset = head.length - 4;
-const tKey = packr.pack('t');
+const tKey = packBuffer('t');
 const tOffset = head.length + tKey.length + 1;
 
 function template(f: ReturnType<typeof benchFrame>): Buffer {
 	const parts: Buffer[] = [head, tKey, Buffer.from([0xcb, 0, 0, 0, 0, 0, 0, 0, 0])];
 	for (const k of ['ego', 'measurements', 'estimates', 'truth'] as const)
-		parts.push(packr.pack(k), packr.pack(f[k]));
+		parts.push(packBuffer(k), packBuffer(f[k]));
 	return Buffer.concat(parts);
-}
-
-function pct(xs: number[], p: number) {
-	if (!xs.length) return NaN;
-	const s = [...xs].sort((a, b) => a - b);
-	return s[Math.min(s.length - 1, Math.floor((p / 100) * s.length))];
 }
 
 async function main() {
@@ -181,7 +181,7 @@ async function main() {
 	let wsUrl = app.url.replace('http', 'ws') + '/ingest/v1';
 	const r = rng(1);
 	const templates = Array.from({ length: 64 }, (_, i) => template(benchFrame(i, 0, r)));
-	const check = packr.unpack(templates[0]) as Frame;
+	const check = unpack(templates[0]) as Frame;
 	if (Object.keys(check).length !== 7 || !Array.isArray(check.estimates))
 		throw new Error('bad template');
 	console.log(`frame message: ${templates[0].length} bytes MessagePack`);
@@ -256,7 +256,7 @@ async function main() {
 		const m0 = performance.now();
 		const m = frameMetrics(f, { stateFields, settings: defaultMetricSettings });
 		metricsMs += performance.now() - m0;
-		const raw = packr.pack(f);
+		const raw = packBuffer(f);
 		// binary: the very tuple the ingest store writes for this frame
 		tuples.push(
 			frameTuple(runBytes, frameRow(benchRunId, { seq: i, t: f.t, raw, frame: f }, rowCtx))

@@ -9,11 +9,12 @@
  */
 import { resolve } from 'node:path';
 import { chromium } from '@playwright/test';
-import { Unpackr } from 'msgpackr';
 import postgres from 'postgres';
 import WebSocket from 'ws';
 import { hashSecret, newSecret, secretPrefix } from '../../src/lib/server/auth/tokens';
 import { applyMigrations } from '../../src/lib/server/db/migrate';
+import { unpack } from '../../src/lib/msgpack';
+import { percentile as pct } from '../../src/lib/percentile';
 import type { LiveServerMessage } from '../../src/lib/viewer/live-protocol';
 import { Browserish } from '../../tests/support/client';
 import { startApp } from '../../tests/support/app';
@@ -35,7 +36,6 @@ const NODE_VIEWERS = 4;
 const withBrowser = !process.argv.includes('--no-browser');
 const root = resolve(import.meta.dirname, '../..');
 const scenarios = ['lanternfall-crossing', 'glassmere-reach', 'brassnettle-yard'];
-const unpackr = new Unpackr({ useRecords: false, mapsAsObjects: true, int64AsType: 'number' });
 /** device t → handed to the rig client: how late the simulated rig itself is (simulation and this process's load) */
 const sendLag: number[] = [];
 let measuring = false;
@@ -76,12 +76,6 @@ async function benchRig(
 		if (measuring) sendLag.push(Date.now() - frame.t * 1000);
 	}
 	await client.close();
-}
-
-function pct(xs: number[], p: number): number {
-	if (!xs.length) return NaN;
-	const s = [...xs].sort((a, b) => a - b);
-	return s[Math.min(s.length - 1, Math.floor((p / 100) * s.length))];
 }
 
 const row = (label: string, xs: number[]) =>
@@ -169,7 +163,7 @@ async function main() {
 			});
 			ws.on('message', (data) => {
 				const at = Date.now();
-				const m = unpackr.unpack(data as Buffer) as LiveServerMessage;
+				const m = unpack(data as Buffer) as LiveServerMessage;
 				if (m.type !== 'frame' || !measuring) return;
 				frames++;
 				skipped += m.skipped;

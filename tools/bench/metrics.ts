@@ -10,10 +10,11 @@ import { solveAssignment } from '../../src/lib/metrics/assignment';
 import { gospa, type Point } from '../../src/lib/metrics/gospa';
 import { defaultMetricSettings } from '../../src/lib/metrics/settings';
 import { RunSummaryAccumulator } from '../../src/lib/metrics/summary';
-import { normalSource, seededRandom } from '../../src/lib/metrics/random';
+import { Rng } from '../../src/lib/random';
 
-const rand = seededRandom(2026);
-const gauss = normalSource(rand);
+const rng = new Rng(2026);
+const rand = () => rng.next();
+const gauss = () => rng.normal();
 
 const C = defaultMetricSettings.c;
 const P = defaultMetricSettings.p;

@@ -10,13 +10,14 @@
  * time goes (self time per function and per script); `-- --reuse` keeps the bench database from the last run.
  */
 import { resolve } from 'node:path';
-import { Packr } from 'msgpackr';
 import postgres from 'postgres';
 import { chromium, type Page } from '@playwright/test';
 import { profileSummary, startProfile } from './viewer-profile';
 import { frameRow } from '../../src/lib/server/ingest/store';
 import { defaultMetricSettings } from '../../src/lib/metrics/settings';
-import { seededRandom } from '../../src/lib/metrics/random';
+import { pack } from '../../src/lib/msgpack';
+import { percentile as pct } from '../../src/lib/percentile';
+import { seededRandom } from '../../src/lib/random';
 import type { Frame } from '../../src/lib/protocol/types';
 import { startApp } from '../../tests/support/app';
 import { buildIfStale } from '../lib/build';
@@ -25,7 +26,6 @@ import { applyMigrations } from '../../src/lib/server/db/migrate';
 import { chromiumLaunchOptions } from '../lib/chromium';
 
 const root = resolve(import.meta.dirname, '..', '..');
-const packr = new Packr({ useRecords: false });
 const rand = seededRandom(4242);
 const args = new Set(process.argv.slice(2));
 const STATE = ['x', 'y', 'vx', 'vy'];
@@ -94,7 +94,7 @@ async function insertRun(
 			// the same row the ingest store writes
 			const row = frameRow(
 				run.id,
-				{ seq: k, t: f.t, frame: f, raw: packr.pack({ type: 'frame', ...f }) },
+				{ seq: k, t: f.t, frame: f, raw: pack({ type: 'frame', ...f }) },
 				ctx
 			);
 			rows.push({ ...row, zones: row.zones === null ? null : sql.json(row.zones) });
@@ -187,9 +187,6 @@ async function seeks(page: Page, runId: string, duration: number, clicks = 25): 
 	}
 	return out;
 }
-
-const pct = (xs: number[], p: number) =>
-	[...xs].sort((a, b) => a - b)[Math.min(xs.length - 1, Math.ceil((p / 100) * xs.length) - 1)];
 
 const names = { heavy: 'crowd 300/600', empty: 'empty', long: 'one hour at 20 Hz' };
 const reusable = args.has('--reuse') && (await benchRuns(await benchDatabase(true)));

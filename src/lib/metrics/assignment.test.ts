@@ -3,7 +3,7 @@ import munkres from 'munkres';
 import { linearSumAssignment } from 'linear-sum-assignment';
 import { InfeasibleAssignmentError, solveAssignment } from './assignment';
 import { bruteForceAssignmentCost } from './test-support';
-import { seededRandom } from './random';
+import { seededRandom } from '../random';
 
 function randomMatrix(rand: () => number, rows: number, cols: number, scale = 100): Float64Array {
 	const m = new Float64Array(rows * cols);

@@ -5,7 +5,7 @@ import {
 	cardinalityStats,
 	expectedCardinality
 } from './cardinality';
-import { seededRandom } from './random';
+import { seededRandom } from '../random';
 
 /** P(N = k) by enumerating all 2ⁿ existence patterns (definition of the Poisson-binomial law). */
 function bruteForce(r: number[]): number[] {

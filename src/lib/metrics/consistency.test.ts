@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { nees, neesBounds, neesVerdict, subBlock } from './consistency';
-import { normalSource, seededRandom } from './random';
+import { seededNormal } from '../random';
 
 describe('nees', () => {
 	it('computes eᵀ P⁻¹ e by hand', () => {
@@ -25,7 +25,7 @@ describe('nees', () => {
 
 	it('averages to the dimension for errors drawn from P (Monte Carlo, fixed seed)', () => {
 		// E[NEES] = n for a consistent estimator (Bar-Shalom, Li, Kirubarajan 2001, ch. 5).
-		const normal = normalSource(seededRandom(41));
+		const normal = seededNormal(41);
 		const [a, b, c] = [2, 0.7, 0.5]; // P = L Lᵀ with L = [[2, 0], [0.7, 0.5]]
 		const P = [a * a, a * b, a * b, b * b + c * c];
 		let sum = 0;

@@ -4,7 +4,7 @@ import { evaluateFrame, frameMetrics, type FrameContext } from './frame';
 import { gospa } from './gospa';
 import { defaultMetricSettings, parseMetricSettings } from './settings';
 import { RunSummaryAccumulator } from './summary';
-import { normalSource, seededRandom } from './random';
+import { seededNormal } from '../random';
 
 const stateFields = ['x', 'vx', 'y', 'vy'];
 const ctx: FrameContext = { stateFields, settings: defaultMetricSettings, coords: 'ego' };
@@ -205,7 +205,7 @@ describe('RunSummaryAccumulator', () => {
 	});
 
 	it('gives the NEES verdict for consistent and overconfident trackers (simulated, fixed seed)', () => {
-		const normal = normalSource(seededRandom(61));
+		const normal = seededNormal(61);
 		const run = (claimedScale: number) => {
 			const acc = new RunSummaryAccumulator(ctx);
 			for (let k = 0; k < 400; k++) {

@@ -3,7 +3,7 @@ import munkres from 'munkres';
 import { linearSumAssignment } from 'linear-sum-assignment';
 import { gospa, ospa, type Point } from './gospa';
 import { bruteForceAssignmentCost } from './test-support';
-import { seededRandom } from './random';
+import { seededRandom } from '../random';
 import published from './fixtures/gospa-published-example.json';
 
 const dist = (a: Point, b: Point) => Math.hypot(a[0] - b[0], a[1] - b[1]);

@@ -1,8 +1,5 @@
 /** Brute-force references shared by the metrics tests. */
 
-// Other suites import the PRNG from here; it lives in ./random so the benchmark can share it.
-export { normalSource, seededRandom } from './random';
-
 /** Minimum assignment cost over all injections of the smaller side into the larger one. */
 export function bruteForceAssignmentCost(
 	cost: ArrayLike<number>,

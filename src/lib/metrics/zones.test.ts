@@ -13,7 +13,7 @@ import {
 	type PlanarObject,
 	type Zone
 } from './zones';
-import { normalSource, seededRandom } from './random';
+import { Rng } from '../random';
 
 /** P(X > h, Y > k) = ∫_h^∞ φ(x) Φ((ρx − k)/√(1−ρ²)) dx by composite Simpson on [h, 10] (a separate route). */
 function upperByQuadrature(h: number, k: number, rho: number): number {
@@ -78,8 +78,9 @@ describe('bivariate normal', () => {
 	});
 
 	it('agrees with Monte Carlo on rectangles (fixed seed)', () => {
-		const rand = seededRandom(51);
-		const normal = normalSource(rand);
+		const rng = new Rng(51);
+		const rand = () => rng.next();
+		const normal = () => rng.normal();
 		const N = 40000;
 		for (let trial = 0; trial < 6; trial++) {
 			const rho = 2 * rand() - 1;

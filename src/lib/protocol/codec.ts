@@ -2,7 +2,7 @@
  * Decoding and encoding of single ingest messages (docs/protocol.md, "Encodings").
  * Binary messages are MessagePack, text messages JSON; replies use the encoding of what they answer.
  */
-import { Packr, type Options } from 'msgpackr';
+import { pack, unpack } from '../msgpack';
 import { DEFAULT_LIMITS } from './limits';
 import type { Encoding } from './types';
 
@@ -15,23 +15,6 @@ export type Decoded =
 			raw: Uint8Array;
 	  }
 	| { ok: false; encoding: Encoding; reason: string; raw: Uint8Array };
-
-/**
- * Plain MessagePack only: maps become plain objects, no record extension, 64-bit integers become
- * numbers (anything outside the safe range then fails the integer checks instead of turning into
- * a BigInt nobody expects), undefined properties are left out as JSON.stringify does.
- */
-const packrOptions: Options & { skipValues: unknown[] } = {
-	useRecords: false,
-	mapsAsObjects: true,
-	int64AsType: 'number',
-	variableMapSize: true,
-	moreTypes: false,
-	structuredClone: false,
-	bundleStrings: false,
-	skipValues: [undefined]
-};
-const packr = new Packr(packrOptions);
 
 const utf8Decoder = new TextDecoder('utf-8', { fatal: true });
 const utf8Encoder = new TextEncoder();
@@ -188,7 +171,7 @@ export function decodeMessage(
 	if (problem !== null) return { ok: false, encoding: 'msgpack', reason: problem, raw: data };
 	let value: unknown;
 	try {
-		value = packr.unpack(data);
+		value = unpack(data);
 	} catch (e) {
 		return { ok: false, encoding: 'msgpack', reason: `not decodable: ${errorText(e)}`, raw: data };
 	}
@@ -219,20 +202,20 @@ export function encodeMessage(msg: object, encoding: 'msgpack'): Uint8Array;
 export function encodeMessage(msg: object, encoding: 'json'): string;
 export function encodeMessage(msg: object, encoding: Encoding): Uint8Array | string;
 export function encodeMessage(msg: object, encoding: Encoding): Uint8Array | string {
-	return encoding === 'msgpack' ? packr.pack(msg) : JSON.stringify(msg);
+	return encoding === 'msgpack' ? pack(msg) : JSON.stringify(msg);
 }
 
 /** MessagePack bytes of a decoded map (what storage keeps for a frame that arrived as JSON). */
 export function toMsgpack(value: object): Uint8Array {
-	return packr.pack(value);
+	return pack(value);
 }
 
 /** Decodes MessagePack written by {@link toMsgpack} or received from a rig (for replay). */
 export function fromMsgpack(bytes: Uint8Array): unknown {
-	return packr.unpack(bytes);
+	return unpack(bytes);
 }
 
 /** The bytes a stored frame keeps: what the rig sent if it was MessagePack, else its MessagePack form. */
 export function storedFrameBytes(decoded: Extract<Decoded, { ok: true }>): Uint8Array {
-	return decoded.encoding === 'msgpack' ? decoded.raw : packr.pack(decoded.msg);
+	return decoded.encoding === 'msgpack' ? decoded.raw : pack(decoded.msg);
 }

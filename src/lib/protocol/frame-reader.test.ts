@@ -6,7 +6,7 @@ import { Packr } from 'msgpackr';
 import { describe, expect, it } from 'vitest';
 import { defaultMetricSettings, type MetricSettings } from '../metrics';
 import { frameMetrics, type MetricFrame } from '../metrics/frame';
-import { seededRandom } from '../metrics/random';
+import { seededRandom } from '../random';
 import { decodeMessage } from './codec';
 import { readFrame, type ReadFrame } from './frame-reader';
 import { DEFAULT_LIMITS, resolveLimits } from './limits';

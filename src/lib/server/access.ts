@@ -57,6 +57,7 @@ export const routeRules: Record<string, RouteRule> = {
 	},
 	'/(app)/settings/audit': { read: 'audit:read' },
 	'/(app)/dev/mail': { read: 'mail:dev' },
+	'/(app)/api': { read: 'signed-in' },
 
 	'/api/me': { read: 'signed-in' },
 	'/api/people': { read: 'people:read', write: 'people:manage' },
@@ -81,7 +82,8 @@ export const routeRules: Record<string, RouteRule> = {
 	'/api/runs/[id=id]/series': { read: 'runs:read' },
 	'/api/runs/[id=id]/pins': { read: 'pins:read', write: 'pins:create' },
 	'/api/pins': { read: 'pins:read' },
-	'/api/live': { read: 'runs:read' }
+	'/api/live': { read: 'runs:read' },
+	'/api/openapi.json': { read: 'public' }
 };
 
 export function ruleFor(

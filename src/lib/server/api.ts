@@ -14,7 +14,8 @@ export type ErrorCode =
 	| 'method_not_allowed'
 	| 'unavailable';
 
-const statusOf: Record<ErrorCode, number> = {
+/** The HTTP status of each error code (the API document lists them from here). */
+export const statusOf: Record<ErrorCode, number> = {
 	bad_request: 400,
 	invalid: 422,
 	unauthenticated: 401,

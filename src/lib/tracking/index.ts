@@ -1,5 +1,5 @@
 export * as linalg from './linalg';
-export { Rng, deriveSeed } from './random';
+export { Rng, deriveSeed } from '../random';
 export { cvTransition, cvProcessNoise, turnStep, addAccelNoise, type Vec4 } from './motion';
 export { SensorView, fovArea, type SensorSpec } from './sensor';
 export {

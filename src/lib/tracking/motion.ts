@@ -1,5 +1,5 @@
 import { fromRows, type Mat } from './linalg';
-import type { Rng } from './random';
+import type { Rng } from '../random';
 
 /** State layout everywhere in this folder: [x, y, vx, vy], metres and metres per second. */
 export type Vec4 = [number, number, number, number];

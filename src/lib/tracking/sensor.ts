@@ -1,5 +1,5 @@
 import type { EgoPose } from '../protocol/types';
-import type { Rng } from './random';
+import type { Rng } from '../random';
 
 /** A range/bearing field of view fixed to the ego, reporting positions in world coordinates. */
 export interface SensorSpec {

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { deriveSeed, Rng } from './random';
+import { deriveSeed, Rng } from '../random';
 import { SCENARIOS, getScenario, listScenarios } from './scenarios';
 import { frameAt, simulate, simulateFrom, type SimStep } from './simulate';
 import { EgoTrack } from './world';

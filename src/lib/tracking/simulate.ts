@@ -1,6 +1,6 @@
 import type { Estimate, Frame, Measurement, TruthObject } from '../protocol/types';
 import { GmPhdFilter, type BirthComponent, type MixtureComponent } from './gmphd';
-import { deriveSeed, Rng } from './random';
+import { deriveSeed, Rng } from '../random';
 import { getScenario } from './scenarios';
 import type { BirthRegion, Incident, Scenario } from './scenarios/types';
 import { SensorView } from './sensor';

@@ -1,6 +1,6 @@
 import type { EgoPose } from '../protocol/types';
 import { addAccelNoise, turnStep, type Vec4 } from './motion';
-import type { Rng } from './random';
+import type { Rng } from '../random';
 import type {
 	EgoLeg,
 	Manoeuvre,

@@ -57,6 +57,17 @@ export const changePasswordSchema = z
 
 export const setRoleSchema = z.object({ role: roleField });
 
+/** PATCH /api/people/{id}: a new role, active or not, or both. */
+export const patchPersonSchema = z
+	.object({
+		role: roleField.optional(),
+		active: z.boolean({ error: 'active must be true or false' }).optional()
+	})
+	.strict()
+	.refine((v) => v.role !== undefined || v.active !== undefined, {
+		message: 'Send role and/or active'
+	});
+
 export const tokenNameSchema = z.object({
 	name: z
 		.string({ error: 'Enter a name' })

@@ -4,6 +4,7 @@
  */
 import type { FrameMetrics } from '$lib/metrics/frame';
 import type { Frame } from '$lib/protocol/types';
+import { percentile } from '../percentile';
 
 export const LIVE_PROTOCOL = 1;
 /** `/live/{runId}` follows one run; `/live` alone is the Live board's summary socket */
@@ -166,7 +167,7 @@ export function registerLiveStats(source: () => LiveStats): () => void {
 	};
 }
 
-/** Latency samples kept for a window of time; percentiles over what is left. */
+/** Latency samples kept for a window of time; nearest-rank percentiles over what is left. */
 export class LatencyWindow {
 	#t: number[] = [];
 	#v: number[] = [];
@@ -198,8 +199,7 @@ export class LatencyWindow {
 	percentile(p: number, now?: number): number | null {
 		if (now !== undefined) this.#trim(now);
 		if (!this.#v.length) return null;
-		const s = [...this.#v].sort((a, b) => a - b);
-		return s[Math.min(s.length - 1, Math.floor((p / 100) * s.length))];
+		return percentile(this.#v, p);
 	}
 }
 

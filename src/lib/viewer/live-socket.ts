@@ -3,11 +3,8 @@
  * and keeps an estimate of the server's clock relative to this one (from ping/pong round trips), so latency
  * can be told against device time whatever this machine's clock says. No DOM beyond WebSocket.
  */
-import { Packr, Unpackr } from 'msgpackr';
+import { pack, unpack } from '../msgpack';
 import { LiveCloseCode, type LiveServerMessage } from './live-protocol';
-
-const unpackr = new Unpackr({ useRecords: false, mapsAsObjects: true, int64AsType: 'number' });
-const packr = new Packr({ useRecords: false });
 
 export type LiveSocketStatus = 'connecting' | 'open' | 'retrying' | 'closed';
 
@@ -71,7 +68,7 @@ export class LiveSocket {
 			const at = this.now();
 			let msg: LiveServerMessage;
 			try {
-				msg = unpackr.unpack(new Uint8Array(e.data)) as LiveServerMessage;
+				msg = unpack(new Uint8Array(e.data)) as LiveServerMessage;
 			} catch {
 				return;
 			}
@@ -105,7 +102,7 @@ export class LiveSocket {
 
 	#ping() {
 		if (this.#ws?.readyState === WebSocket.OPEN)
-			this.#ws.send(new Uint8Array(packr.pack({ type: 'ping', c: this.now() })));
+			this.#ws.send(new Uint8Array(pack({ type: 'ping', c: this.now() })));
 	}
 
 	/** NTP-style: the sample with the shortest round trip in the last minute gives the offset. */

@@ -4,11 +4,6 @@ import { pinViewSchema, type PinView } from '$lib/validation/runs';
 export type Layer = PinView['layers'][number];
 export const allLayers: Layer[] = ['measurements', 'estimates', 'truth', 'assignment'];
 
-export function encodeView(v: PinView): string {
-	const round = (n: number) => Math.round(n * 1000) / 1000;
-	return JSON.stringify({ ...v, zoom: round(v.zoom), cx: round(v.cx), cy: round(v.cy) });
-}
-
 export function decodeView(raw: string | null): PinView | null {
 	if (!raw) return null;
 	try {

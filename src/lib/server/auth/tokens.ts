@@ -1,4 +1,4 @@
-import { createHmac, randomBytes, timingSafeEqual } from 'node:crypto';
+import { createHmac, randomBytes } from 'node:crypto';
 
 /** A random secret with a readable kind prefix, e.g. `skt_…` for API tokens, `skf_…` for feed keys. */
 export function newSecret(kind: 'skt' | 'skf' | 'ski' | 'skr'): string {
@@ -17,12 +17,6 @@ export function hashSecret(secret: string): string {
 
 export function secretPrefix(secret: string): string {
 	return secret.slice(0, 10);
-}
-
-export function sameHash(a: string, b: string): boolean {
-	const x = Buffer.from(a, 'hex');
-	const y = Buffer.from(b, 'hex');
-	return x.length === y.length && timingSafeEqual(x, y);
 }
 
 export function newId(): string {

@@ -1,8 +1,6 @@
 /** Reading runs and their frames back, exactly as rigs sent them. */
-import { Unpackr } from 'msgpackr';
+import { unpack } from '$lib/msgpack';
 import { sqlClient } from '$server/db';
-
-const unpackr = new Unpackr({ useRecords: false, mapsAsObjects: true, int64AsType: 'number' });
 
 export interface RunListFilter {
 	rigId?: string;
@@ -74,7 +72,7 @@ export async function readFrames(runId: string, r: FrameRange) {
 	const more = rows.length > r.limit;
 	const page = more ? rows.slice(0, r.limit) : rows;
 	const frames = page.map((row) => {
-		const { type: _type, ...frame } = unpackr.unpack(row.data) as Record<string, unknown>;
+		const { type: _type, ...frame } = unpack(row.data) as Record<string, unknown>;
 		return frame;
 	});
 	return { frames, next_from_seq: more ? rows[r.limit].seq : null };

@@ -5,7 +5,7 @@
 import { Packr } from 'msgpackr';
 import { afterAll, describe, expect, it } from 'vitest';
 import { defaultMetricSettings, type MetricSettings } from '$lib/metrics';
-import { seededRandom } from '$lib/metrics/random';
+import { seededRandom } from '$lib/random';
 import { fromMsgpack } from '$lib/protocol/codec';
 import type { Frame } from '$lib/protocol/types';
 import { frameTuple, uuidBytes } from './copy-binary';

@@ -73,9 +73,3 @@ export async function sendMail(mail: OutgoingMail): Promise<void> {
 		throw err;
 	}
 }
-
-export function publicUrl(path: string): string {
-	const base =
-		process.env.ORIGIN ?? process.env.PUBLIC_URL ?? `http://localhost:${process.env.PORT ?? 3000}`;
-	return new URL(path, base).toString();
-}

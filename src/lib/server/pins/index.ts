@@ -81,11 +81,3 @@ export async function listAllPins(
 		order by p.created_at desc, p.id limit ${limit} offset ${offset}`;
 	return { total: rows.length ? rows[0].total : 0, pins: rows.map(({ total: _t, ...p }) => p) };
 }
-
-export async function getPin(id: string): Promise<PinRow | null> {
-	const sql = sqlClient();
-	const [row] = await sql<PinRow[]>`
-		select ${sql.unsafe(pinColumns)} from pins p join runs r on r.id = p.run_id left join users u on u.id = p.created_by
-		where p.id = ${id}`;
-	return row ?? null;
-}

@@ -1,4 +1,4 @@
-import type { Rng } from '../random';
+import type { Rng } from '../../random';
 import { chance, entryFree, moving, quarterTurn } from './helpers';
 import type { BirthRegion, Manoeuvre, ObjectSpec, Scenario, SpawnSource } from './types';
 

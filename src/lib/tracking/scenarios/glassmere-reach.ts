@@ -1,4 +1,4 @@
-import type { Rng } from '../random';
+import type { Rng } from '../../random';
 import { chance, entryFree, laneChange, moving } from './helpers';
 import type { ObjectSpec, Scenario, SpawnSource, WorldObjectView } from './types';
 

@@ -1,5 +1,5 @@
 import type { Vec4 } from '../motion';
-import type { Rng } from '../random';
+import type { Rng } from '../../random';
 import type { Manoeuvre, WorldObjectView } from './types';
 
 /** True when no live object (and not the ego, if given) is within `clear` metres of (x, y). */

@@ -1,5 +1,5 @@
 import type { Vec4 } from '../motion';
-import type { Rng } from '../random';
+import type { Rng } from '../../random';
 import { entryFree, moving, quarterTurn } from './helpers';
 import type { BirthRegion, Manoeuvre, Scenario, SpawnSource } from './types';
 

@@ -1,6 +1,6 @@
 import type { EgoPose } from '../../protocol/types';
 import type { Vec4 } from '../motion';
-import type { Rng } from '../random';
+import type { Rng } from '../../random';
 import type { SensorSpec } from '../sensor';
 
 /** One stretch of an object's plan: turn rate (rad/s, + is left) and tangential acceleration. */

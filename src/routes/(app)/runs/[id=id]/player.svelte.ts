@@ -2,7 +2,6 @@
  * The playhead of the Run screen: time, play/pause, speed and steps, and the frame cache behind it.
  * The displayed frame is the nearest one on hand; while the wanted window loads the screen says "catching up".
  */
-import { Unpackr } from 'msgpackr';
 import {
 	evaluateFrame,
 	parseMetricSettings,
@@ -10,10 +9,10 @@ import {
 	type FrameEvaluation,
 	type MetricSettings
 } from '$lib/metrics';
+import { unpack } from '$lib/msgpack';
 import type { Frame } from '$lib/protocol/types';
 import { FrameCache } from '$lib/viewer/frame-cache';
 
-const unpackr = new Unpackr({ useRecords: false, mapsAsObjects: true, int64AsType: 'number' });
 export const SPEEDS = [0.1, 0.25, 0.5, 1, 2, 4, 8, 16] as const;
 /** seconds of history the scene draws as trails */
 export const TRAIL_S = 5;
@@ -120,7 +119,7 @@ export class RunPlayer {
 			}
 		);
 		if (!res.ok) throw new Error(`frames: HTTP ${res.status}`);
-		return (unpackr.unpack(new Uint8Array(await res.arrayBuffer())) as { frames: Frame[] }).frames;
+		return (unpack(new Uint8Array(await res.arrayBuffer())) as { frames: Frame[] }).frames;
 	}
 
 	/** evaluation per frame, kept as long as the frame is cached */

@@ -7,6 +7,7 @@
 import type { Application, BitmapText, Container, Graphics, Text } from 'pixi.js';
 import type { FrameEvaluation, Zone } from '$lib/metrics';
 import type { Estimate, Frame } from '$lib/protocol/types';
+import { colorNumber, setColors } from '$lib/set-colors';
 import type { Layer } from '$lib/viewer/view';
 import {
 	apply,
@@ -28,11 +29,11 @@ const TRAIL_STEP_PX = 3;
 /** the ego chevron, nose along +x */
 const EGO_CHEVRON = [11, 0, -6, 7, -2, 0, -6, -7];
 const C = {
-	measurement: 0xc07a12,
-	estimate: 0x0e7c74,
-	truth: 0x8e2c66,
-	ego: 0x243b6b,
-	zone: 0x4f46e5
+	measurement: colorNumber(setColors.measurement),
+	estimate: colorNumber(setColors.estimate),
+	truth: colorNumber(setColors.truth),
+	ego: colorNumber(setColors.ego),
+	zone: colorNumber(setColors.zone)
 };
 
 export interface SceneInput {

@@ -3,6 +3,7 @@
  * zoomed in, and the GOSPA spikes the timeline marks.
  */
 import { neesBounds, type MetricSettings } from '$lib/metrics';
+import { setColors, withAlpha } from '$lib/set-colors';
 import { bucketsFor, needsRefinement } from '$lib/viewer/series';
 
 interface Stats {
@@ -143,49 +144,54 @@ export class StripsState {
 			return mean.map((m, i) => (m === null ? null : Math.max(0, m + k * (sd[i] ?? 0))));
 		};
 		const unitP = p === 1 ? 'm' : `m^${p}`;
-		const zoneColors = ['#4F46E5', '#0E7C74', '#C07A12', '#8E2C66'];
+		const zoneColors = [setColors.zone, setColors.estimate, setColors.measurement, setColors.truth];
 		return [
 			{
 				id: 'cardinality',
 				title: 'Cardinality',
 				unit: 'objects',
 				lines: [
-					{ label: 'truth', values: col('n_truth').mean, color: '#8E2C66' },
-					{ label: 'estimates', values: col('n_estimates').mean, color: '#0E7C74' },
+					{ label: 'truth', values: col('n_truth').mean, color: setColors.truth },
+					{ label: 'estimates', values: col('n_estimates').mean, color: setColors.estimate },
 					{
 						label: 'E[N]',
 						values: col('expected_cardinality').mean,
-						color: '#0E7C74',
+						color: setColors.estimate,
 						dash: [4, 3]
 					},
 					// the cardinality distribution as a band: E[N] ± 2σ, σ² = Σ r(1 − r)
 					{ label: 'E[N] − 2σ', values: spread(-2), color: 'transparent' },
 					{ label: 'E[N] + 2σ', values: spread(2), color: 'transparent' }
 				],
-				bands: [[4, 3, 'rgba(14,124,116,0.15)']]
+				bands: [[4, 3, withAlpha(setColors.estimate, 0.15)]]
 			},
 			{
 				id: 'gospa',
 				title: `GOSPA^${p} split (c ${c}, p ${p})`,
 				unit: unitP,
 				lines: [
-					{ label: 'localization', values: loc, color: '#0E7C74', fill: 'rgba(14,124,116,0.35)' },
+					{
+						label: 'localization',
+						values: loc,
+						color: setColors.estimate,
+						fill: withAlpha(setColors.estimate, 0.35)
+					},
 					{
 						label: '+ missed',
 						values: sum(loc, missed),
-						color: '#8E2C66',
-						fill: 'rgba(142,44,102,0.3)'
+						color: setColors.truth,
+						fill: withAlpha(setColors.truth, 0.3)
 					},
 					{
 						label: '+ false',
 						values: sum(loc, missed, falses),
-						color: '#C07A12',
-						fill: 'rgba(192,122,18,0.3)'
+						color: setColors.measurement,
+						fill: withAlpha(setColors.measurement, 0.3)
 					}
 				],
 				bands: [
-					[2, 1, 'rgba(192,122,18,0.3)'],
-					[1, 0, 'rgba(142,44,102,0.3)']
+					[2, 1, withAlpha(setColors.measurement, 0.3)],
+					[1, 0, withAlpha(setColors.truth, 0.3)]
 				]
 			},
 			{
@@ -193,8 +199,8 @@ export class StripsState {
 				title: 'OSPA',
 				unit: 'm',
 				lines: [
-					{ label: 'mean', values: col('ospa').mean, color: '#243B6B' },
-					{ label: 'max', values: col('ospa').max, color: '#243B6B', dash: [2, 3] }
+					{ label: 'mean', values: col('ospa').mean, color: setColors.ego },
+					{ label: 'max', values: col('ospa').max, color: setColors.ego, dash: [2, 3] }
 				]
 			},
 			{
@@ -202,21 +208,21 @@ export class StripsState {
 				title: `Mean NEES (dim ${this.dim}), 95 % band`,
 				unit: 'χ²',
 				lines: [
-					{ label: 'NEES', values: col('nees_mean').mean, color: '#0E7C74' },
+					{ label: 'NEES', values: col('nees_mean').mean, color: setColors.estimate },
 					{
 						label: 'lower',
 						values: s.t.map(() => b.lower),
-						color: 'rgba(79,70,229,0.5)',
+						color: withAlpha(setColors.zone, 0.5),
 						dash: [3, 3]
 					},
 					{
 						label: 'upper',
 						values: s.t.map(() => b.upper),
-						color: 'rgba(79,70,229,0.5)',
+						color: withAlpha(setColors.zone, 0.5),
 						dash: [3, 3]
 					}
 				],
-				bands: [[2, 1, 'rgba(79,70,229,0.08)']]
+				bands: [[2, 1, withAlpha(setColors.zone, 0.08)]]
 			},
 			{
 				id: 'zones',

@@ -1,19 +1,8 @@
 import { json } from '@sveltejs/kit';
-import { z } from 'zod';
-import { roleField } from '$lib/validation/people';
+import { patchPersonSchema } from '$lib/validation/people';
 import { ApiError, actorOf, endpoint, readJson } from '$server/api';
 import { getUser, setActive, setRole } from '$server/people';
 import type { RequestHandler } from './$types';
-
-const patchSchema = z
-	.object({
-		role: roleField.optional(),
-		active: z.boolean({ error: 'active must be true or false' }).optional()
-	})
-	.strict()
-	.refine((v) => v.role !== undefined || v.active !== undefined, {
-		message: 'Send role and/or active'
-	});
 
 export const GET: RequestHandler = endpoint(async ({ params }) => {
 	const user = await getUser(params.id);
@@ -24,7 +13,7 @@ export const GET: RequestHandler = endpoint(async ({ params }) => {
 
 export const PATCH: RequestHandler = endpoint(
 	async ({ params, request, locals, getClientAddress }) => {
-		const input = await readJson(request, patchSchema);
+		const input = await readJson(request, patchPersonSchema);
 		const actor = actorOf(locals, getClientAddress());
 		if (input.active === false && params.id === locals.user!.id)
 			throw new ApiError('invalid', 'You cannot deactivate yourself');

@@ -1,12 +1,10 @@
 import { json } from '@sveltejs/kit';
-import { Packr } from 'msgpackr';
+import { pack } from '$lib/msgpack';
 import { frameQuery } from '$lib/validation/runs';
 import { ApiError, endpoint } from '$server/api';
 import { getRun, readFrames } from '$server/ingest/read';
 import { readQuery } from '$server/query';
 import type { RequestHandler } from './$types';
-
-const packr = new Packr({ useRecords: false });
 
 /** Frames as the rig sent them; JSON, or MessagePack with `Accept: application/x-msgpack`. Paginate with next_from_seq. */
 export const GET: RequestHandler = endpoint(async ({ params, url, request }) => {
@@ -20,7 +18,7 @@ export const GET: RequestHandler = endpoint(async ({ params, url, request }) => 
 		limit: q.limit
 	});
 	if ((request.headers.get('accept') ?? '').includes('application/x-msgpack')) {
-		return new Response(new Uint8Array(packr.pack(page)), {
+		return new Response(new Uint8Array(pack(page)), {
 			headers: { 'content-type': 'application/x-msgpack' }
 		});
 	}

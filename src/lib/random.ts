@@ -1,7 +1,7 @@
 /**
- * Seeded pseudo-random numbers: mulberry32 for uniforms, Box–Muller for normals, Knuth's product
- * method for Poisson counts. Everything the simulator draws goes through one of these, so a seed
- * fixes a run completely.
+ * The one seeded random source of the project: mulberry32 for uniforms, Box–Muller for normals,
+ * Knuth's product method for Poisson counts. The simulator, the tests and the benchmarks all draw from
+ * it, so a seed fixes what they see. Pure TypeScript, shared by server, browser and tools.
  */
 
 /** Mixes a 32-bit seed with a stream name, so truth and sensor noise draw from independent streams. */
@@ -78,4 +78,16 @@ export class Rng {
 	exponential(rate: number): number {
 		return -Math.log(1 - this.next()) / rate;
 	}
+}
+
+/** The uniform draws of a fresh `Rng`, as a plain function (for code that takes `() => number`). */
+export function seededRandom(seed: number): () => number {
+	const rng = new Rng(seed);
+	return () => rng.next();
+}
+
+/** Standard normal draws of a fresh `Rng`, as a plain function. */
+export function seededNormal(seed: number): () => number {
+	const rng = new Rng(seed);
+	return () => rng.normal();
 }
