@@ -10,7 +10,7 @@
 import { Packr } from 'msgpackr';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { SkeinRigClient } from '$lib/protocol/client';
-import { seededRandom } from '$lib/metrics/random';
+import { seededRandom } from '$lib/random';
 import { startApp, type RunningApp } from '../support/app';
 import { Browserish } from '../support/client';
 import { makePerson } from '../support/factories';
