@@ -18,7 +18,7 @@ import { CloseCode, INGEST_PATH } from '../../src/lib/protocol/types';
 import { sharedPubSub, type PubSub, type RunEvent } from '../pubsub';
 import type { RunChannel } from './run-channel';
 import { IngestSession, type SessionContext } from './session';
-import type { IngestStore, RigRef } from './store';
+import type { IngestStore, RigRef } from '../../src/lib/server/ingest/contract';
 
 export interface IngestEndpointOptions {
 	store: IngestStore;

@@ -14,7 +14,7 @@ import { Packr } from 'msgpackr';
 import postgres from 'postgres';
 import { chromium, type Page } from '@playwright/test';
 import { profileSummary, startProfile } from './viewer-profile';
-import { frameRow } from '../../src/lib/server/ingest/store';
+import { frameRow } from '../../src/lib/server/ingest/frame-rows';
 import { defaultMetricSettings } from '../../src/lib/metrics/settings';
 import { seededRandom } from '../../src/lib/metrics/random';
 import type { Frame } from '../../src/lib/protocol/types';

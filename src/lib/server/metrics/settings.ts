@@ -2,6 +2,12 @@
 import { parseMetricSettings, type MetricSettings } from '$lib/metrics';
 import { sqlClient } from '$server/db';
 
+/**
+ * How stale a live run's metric settings may get: the ingest store re-reads them this often, and the recompute
+ * job waits this long before it finishes.
+ */
+export const SETTINGS_TTL_MS = 1000;
+
 export type RecomputeState = 'idle' | 'queued' | 'running' | 'done' | 'failed';
 
 export interface RecomputeStatus {
