@@ -14,7 +14,7 @@ import postgres from 'postgres';
 import WebSocket from 'ws';
 import { hashSecret, newSecret, secretPrefix } from '../../src/lib/server/auth/tokens';
 import { applyMigrations } from '../../src/lib/server/db/migrate';
-import type { LiveServerMessage } from '../../src/lib/viewer/live-protocol';
+import type { LiveServerMessage } from '../../src/lib/protocol/live';
 import { Browserish } from '../../tests/support/client';
 import { startApp } from '../../tests/support/app';
 import { buildIfStale } from '../lib/build';

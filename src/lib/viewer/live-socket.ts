@@ -4,7 +4,7 @@
  * can be told against device time whatever this machine's clock says. No DOM beyond WebSocket.
  */
 import { Packr, Unpackr } from 'msgpackr';
-import { LiveCloseCode, type LiveServerMessage } from './live-protocol';
+import { LiveCloseCode, type LiveServerMessage } from '$lib/protocol/live';
 
 const unpackr = new Unpackr({ useRecords: false, mapsAsObjects: true, int64AsType: 'number' });
 const packr = new Packr({ useRecords: false });

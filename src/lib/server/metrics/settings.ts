@@ -1,4 +1,5 @@
 /** A run's metric settings and the state of the recompute a settings change starts. */
+import type { RecomputeState, RecomputeStatus } from '$lib/api-types';
 import { parseMetricSettings, type MetricSettings } from '$lib/metrics';
 import { sqlClient } from '$server/db';
 
@@ -8,15 +9,6 @@ import { sqlClient } from '$server/db';
  */
 export const SETTINGS_TTL_MS = 1000;
 
-export type RecomputeState = 'idle' | 'queued' | 'running' | 'done' | 'failed';
-
-export interface RecomputeStatus {
-	state: RecomputeState;
-	/** 0–100 */
-	progress: number;
-	error?: string;
-	updated_at?: string;
-}
 
 export async function recomputeStatus(runId: string): Promise<RecomputeStatus> {
 	const sql = sqlClient();

@@ -10,7 +10,9 @@ import {
 	type FrameEvaluation,
 	type MetricSettings
 } from '$lib/metrics';
+import type { FramePage } from '$lib/api-types';
 import type { Frame } from '$lib/protocol/types';
+import type { Coords } from '$lib/runs';
 import { FrameCache } from '$lib/viewer/frame-cache';
 
 const unpackr = new Unpackr({ useRecords: false, mapsAsObjects: true, int64AsType: 'number' });
@@ -26,7 +28,7 @@ export interface PlayerRun {
 	duration: number;
 	frameRate: number | null;
 	stateFields: string[];
-	coords: 'world' | 'ego';
+	coords: Coords;
 	metricSettings: Record<string, unknown> | null;
 }
 
@@ -120,7 +122,7 @@ export class RunPlayer {
 			}
 		);
 		if (!res.ok) throw new Error(`frames: HTTP ${res.status}`);
-		return (unpackr.unpack(new Uint8Array(await res.arrayBuffer())) as { frames: Frame[] }).frames;
+		return (unpackr.unpack(new Uint8Array(await res.arrayBuffer())) as FramePage).frames;
 	}
 
 	/** evaluation per frame, kept as long as the frame is cached */
