@@ -10,7 +10,12 @@ import { Unpackr } from 'msgpackr';
 import { WebSocketServer, type RawData, type WebSocket } from 'ws';
 import { can, type Role } from '../../src/lib/permissions';
 import type { LiveStats } from '../../src/lib/api-types';
-import { LIVE_PATH, LIVE_PROTOCOL, LiveCloseCode, type LiveRunInfo } from '../../src/lib/protocol/live';
+import {
+	LIVE_PATH,
+	LIVE_PROTOCOL,
+	LiveCloseCode,
+	type LiveRunInfo
+} from '../../src/lib/protocol/live';
 import { registerLiveStats } from '../../src/lib/server/live/stats';
 import { closeWithin, refuse } from '../ingest/endpoint';
 import { sharedPubSub, type PubSub, type RunEvent } from '../pubsub';

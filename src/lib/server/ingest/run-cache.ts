@@ -3,13 +3,15 @@
  * after SETTINGS_TTL_MS, so a settings save reaches live runs), the feed key, and how far it committed.
  */
 import type postgres from 'postgres';
+import type { Run } from '$lib/api-types';
 import { defaultMetricSettings, type MetricSettings } from '$lib/metrics';
+import type { Coords } from '$lib/runs';
 import { SETTINGS_TTL_MS } from '$server/metrics/settings';
 
 export interface RunContext {
 	stateFields: string[];
 	measurementFields: string[];
-	coords: 'world' | 'ego';
+	coords: Coords;
 	settings: MetricSettings;
 	keyId: string | null;
 	/** when settings were last read: they are re-read after SETTINGS_TTL_MS, so a settings save reaches live runs */
@@ -18,14 +20,11 @@ export interface RunContext {
 	committedNext: number | null;
 }
 
-/** The columns of a runs row a context is made from. */
-export interface RunContextRow {
-	id: string;
-	state_fields: string[];
-	measurement_fields: string[];
-	coords: 'world' | 'ego';
-	metric_settings: MetricSettings | null;
-}
+/** The fields of a run a context is made from. */
+type RunContextRow = Pick<
+	Run,
+	'id' | 'state_fields' | 'measurement_fields' | 'coords' | 'metric_settings'
+>;
 
 export class RunCache {
 	#sql: postgres.Sql;
@@ -56,7 +55,7 @@ export class RunCache {
 			const [row] = await this.#sql<
 				Pick<RunContextRow, 'metric_settings'>[]
 			>`select metric_settings from runs where id = ${runId}`;
-			ctx.settings = row?.metric_settings ?? defaultMetricSettings;
+			ctx.settings = storedSettings(row?.metric_settings ?? null);
 			ctx.settingsReadAt = Date.now();
 		}
 		return ctx;
@@ -76,9 +75,14 @@ function contextOf(
 		stateFields: row.state_fields,
 		measurementFields: row.measurement_fields,
 		coords: row.coords,
-		settings: row.metric_settings ?? defaultMetricSettings,
+		settings: storedSettings(row.metric_settings),
 		keyId,
 		settingsReadAt: Date.now(),
 		committedNext
 	};
+}
+
+/** Settings are stored only after checkSettings passed (or as the defaults), so ingest takes them as they are. */
+function storedSettings(stored: Run['metric_settings']): MetricSettings {
+	return (stored as MetricSettings | null) ?? defaultMetricSettings;
 }

@@ -5,7 +5,7 @@
  * run's counters commit together, so an ack never runs ahead of what is durable.
  */
 import type postgres from 'postgres';
-import { defaultMetricSettings, type MetricSettings } from '$lib/metrics';
+import type { Run } from '$lib/api-types';
 import type { IngestRunState, RunSpec } from '$lib/protocol/types';
 import type {
 	FrameToStore,
@@ -17,35 +17,20 @@ import type {
 } from './contract';
 import { resolveFeedKey } from '$server/rigs';
 import { sqlClient } from '$server/db';
+import { openStreamedRun, setStreamedRunState } from '$server/runs/streamed';
 import { commitBatch } from './commit';
 import { RowPreparer } from './prepare';
 import { RunCache } from './run-cache';
 
-interface RunRow {
-	id: string;
-	name: string;
-	state_fields: string[];
-	measurement_fields: string[];
-	coords: 'world' | 'ego';
-	length_unit: string;
-	tags: string[];
-	notes: string;
-	status: IngestRunState | 'imported';
-	next_seq: string | number;
-	frame_count: string | number;
-	last_t: number | null;
-	metric_settings: MetricSettings | null;
-}
-
-function specOf(row: RunRow): RunSpec {
+function specOf(run: Run): RunSpec {
 	return {
-		name: row.name,
-		state_fields: row.state_fields,
-		measurement_fields: row.measurement_fields,
-		coords: row.coords,
+		name: run.name,
+		state_fields: run.state_fields,
+		measurement_fields: run.measurement_fields,
+		coords: run.coords,
 		units: { length: 'm' },
-		tags: row.tags,
-		notes: row.notes
+		tags: run.tags,
+		notes: run.notes
 	};
 }
 
@@ -70,44 +55,19 @@ export class PostgresIngestStore implements IngestStore {
 	}
 
 	async openRun(req: OpenRunRequest): Promise<OpenRunResult> {
-		const { spec } = req;
-		let row: RunRow | undefined;
-		let resumed = false;
-		if (req.clientRunId !== null) {
-			[row] = await this.#sql<
-				RunRow[]
-			>`select * from runs where rig_id = ${req.rig.rigId} and client_run_id = ${req.clientRunId}`;
-			resumed = row !== undefined;
-		}
-		if (!row) {
-			const inserted = await this.#sql<RunRow[]>`
-				insert into runs (rig_id, client_run_id, name, state_fields, measurement_fields, coords, length_unit, tags, notes, status, metric_settings)
-				values (${req.rig.rigId}, ${req.clientRunId}, ${spec.name}, ${spec.state_fields}, ${spec.measurement_fields},
-				        ${spec.coords ?? 'world'}, ${spec.units?.length ?? 'm'}, ${spec.tags ?? []}, ${spec.notes ?? ''}, 'live',
-				        ${JSON.stringify(defaultMetricSettings)}::text::jsonb)
-				on conflict (rig_id, client_run_id) do nothing
-				returning *`;
-			row = inserted[0];
-			if (!row) {
-				// opened concurrently by another connection of the same rig
-				[row] = await this.#sql<
-					RunRow[]
-				>`select * from runs where rig_id = ${req.rig.rigId} and client_run_id = ${req.clientRunId}`;
-				resumed = true;
-			}
-		}
-		if (row.status === 'imported')
+		const { run, resumed } = await openStreamedRun(req.rig.rigId, req.clientRunId, req.spec);
+		if (run.status === 'imported')
 			return { ok: false, reason: 'this run was imported and cannot be streamed to' };
-		this.#runs.opened(row, req.rig.keyId, Number(row.next_seq));
+		this.#runs.opened(run, req.rig.keyId, run.next_seq);
 		return {
 			ok: true,
-			runId: row.id,
+			runId: run.id,
 			resumed,
-			spec: specOf(row),
-			nextSeq: Number(row.next_seq),
-			lastT: row.last_t,
-			frames: Number(row.frame_count),
-			state: row.status
+			spec: specOf(run),
+			nextSeq: run.next_seq,
+			lastT: run.last_t,
+			frames: run.frame_count,
+			state: run.status
 		};
 	}
 
@@ -129,14 +89,8 @@ export class PostgresIngestStore implements IngestStore {
 	}
 
 	async setRunState(runId: string, state: IngestRunState): Promise<void> {
-		if (state === 'live') {
-			await this
-				.#sql`update runs set status = 'live', ended_at = null, last_seen_at = now() where id = ${runId}`;
-		} else {
-			await this
-				.#sql`update runs set status = ${state}, ended_at = coalesce(ended_at, now()) where id = ${runId} and status <> 'imported'`;
-			if (state === 'ended') this.#runs.forget(runId);
-		}
+		await setStreamedRunState(runId, state);
+		if (state === 'ended') this.#runs.forget(runId);
 	}
 
 	async touchKey(keyId: string, address: string | null): Promise<void> {

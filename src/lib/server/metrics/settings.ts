@@ -9,7 +9,6 @@ import { sqlClient } from '$server/db';
  */
 export const SETTINGS_TTL_MS = 1000;
 
-
 export async function recomputeStatus(runId: string): Promise<RecomputeStatus> {
 	const sql = sqlClient();
 	const [row] = await sql<

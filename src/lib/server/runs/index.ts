@@ -60,7 +60,12 @@ const total = sql<number>`count(*) over ()`.mapWith(Number);
 const liveFirst = desc(sql`${runs.status} = 'live'`);
 
 export async function getRun(id: string): Promise<Run | null> {
-	const [row] = await runQuery().where(eq(runs.id, id));
+	return findRun(eq(runs.id, id));
+}
+
+/** The run matching `where` (a condition on the runs table), or null. */
+export async function findRun(where: SQL | undefined): Promise<Run | null> {
+	const [row] = await runQuery().where(where);
 	return row ? present(row) : null;
 }
 
