@@ -218,38 +218,17 @@ describe('GET /api/runs', () => {
 	});
 
 	it('sorts by name, duration, frames and GOSPA mean in either direction, live first and empty last', async () => {
-		const order = async (sort: string, dir: string) =>
-			names(await search(`rig=${rigId}&sort=${sort}&dir=${dir}`));
-		expect(await order('name', 'asc')).toEqual([
-			'airport apron',
-			'bridge',
-			'Harbour loop',
-			'Zulu 100% sure'
-		]);
-		expect(await order('gospa', 'asc')).toEqual([
-			'airport apron',
-			'Harbour loop',
-			'Zulu 100% sure',
-			'bridge'
-		]);
-		expect(await order('gospa', 'desc')).toEqual([
-			'airport apron',
-			'Zulu 100% sure',
-			'Harbour loop',
-			'bridge'
-		]);
-		expect(await order('frames', 'desc')).toEqual([
-			'airport apron',
-			'Harbour loop',
-			'Zulu 100% sure',
-			'bridge'
-		]);
-		expect(await order('duration', 'asc')).toEqual([
-			'airport apron',
-			'Zulu 100% sure',
-			'Harbour loop',
-			'bridge'
-		]);
+		const orders: [sort: string, dir: string, names: string[]][] = [
+			['name', 'asc', ['airport apron', 'bridge', 'Harbour loop', 'Zulu 100% sure']],
+			['gospa', 'asc', ['airport apron', 'Harbour loop', 'Zulu 100% sure', 'bridge']],
+			['gospa', 'desc', ['airport apron', 'Zulu 100% sure', 'Harbour loop', 'bridge']],
+			['frames', 'desc', ['airport apron', 'Harbour loop', 'Zulu 100% sure', 'bridge']],
+			['duration', 'asc', ['airport apron', 'Zulu 100% sure', 'Harbour loop', 'bridge']]
+		];
+		for (const [sort, dir, want] of orders)
+			expect(names(await search(`rig=${rigId}&sort=${sort}&dir=${dir}`)), `${sort} ${dir}`).toEqual(
+				want
+			);
 	});
 
 	it('pages with limit and offset, the total counting every match', async () => {
