@@ -5,6 +5,7 @@ import { applyRetention, createPartitionsAhead } from '../src/lib/server/ingest/
 import { logger } from '../src/lib/server/log';
 import { startMetricJobs, stopMetricJobs } from '../src/lib/server/metrics/jobs';
 import { keyExpiryChannel, keyRevokedChannel } from '../src/lib/server/rigs';
+import { interruptAbandonedRuns } from '../src/lib/server/runs/streamed';
 import { closeSocketsForKey, createIngestEndpoint, setKeyExpiry } from './ingest/endpoint';
 import { postgresLiveDirectory } from './live/directory';
 import { createLiveEndpoint } from './live/endpoint';
@@ -65,12 +66,7 @@ export function attachSockets(server: Server): AttachedSockets {
 
 	const graceMs = Number(process.env.INGEST_GRACE_SECONDS ?? 30) * 1000;
 	// runs left live by a previous process (crash, restart) become interrupted once their grace has passed
-	const sweep = async () => {
-		const mine = [...ingest.runs.keys()];
-		await sql`update runs set status = 'interrupted', ended_at = coalesce(ended_at, now())
-			where status = 'live' and coalesce(last_seen_at, started_at) < now() - ${graceMs / 1000} * interval '1 second'
-			and not (id = any(${mine}::uuid[]))`;
-	};
+	const sweep = () => interruptAbandonedRuns(graceMs, [...ingest.runs.keys()]);
 	const maintain = async () => {
 		await createPartitionsAhead(sql);
 		const days = Number(process.env.RETENTION_DAYS ?? 0);

@@ -19,7 +19,7 @@ import { sharedPubSub, type PubSub, type RunEvent } from '../pubsub';
 import { closeWithin, Heartbeat, refuse, requestPath } from '../upgrade';
 import type { RunChannel } from './run-channel';
 import { IngestSession, type SessionContext } from './session';
-import type { IngestStore, KeyResolution, RigRef } from './store';
+import type { IngestStore, KeyResolution, RigRef } from '../../src/lib/server/ingest/contract';
 
 export interface IngestEndpointOptions {
 	store: IngestStore;

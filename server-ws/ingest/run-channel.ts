@@ -8,7 +8,11 @@ import type { Frame, IngestRunState, RunSpec } from '../../src/lib/protocol/type
 import { runDims, type RunDims } from '../../src/lib/protocol/validate';
 import { fromMsgpack } from '../../src/lib/protocol/codec';
 import type { PubSub, RunEvent } from '../pubsub';
-import type { FrameToStore, IngestStore, QuarantinedToStore } from './store';
+import type {
+	FrameToStore,
+	IngestStore,
+	QuarantinedToStore
+} from '../../src/lib/server/ingest/contract';
 
 export interface ChannelDeps {
 	store: IngestStore;

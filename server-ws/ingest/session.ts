@@ -17,7 +17,7 @@ import {
 import { readFrame } from '../../src/lib/protocol/frame-reader';
 import { formatIssue, readSeq, validateFrame, validateOpen } from '../../src/lib/protocol/validate';
 import { RunChannel, type ChannelDeps, type ChannelListener } from './run-channel';
-import type { RigRef } from './store';
+import type { RigRef } from '../../src/lib/server/ingest/contract';
 
 export interface SessionTransport {
 	send(data: Uint8Array | string): void;

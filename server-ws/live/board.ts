@@ -5,13 +5,8 @@
  * from the database every 2 s while anyone watches the board (a run streamed by another process shows too).
  */
 import type { WebSocket } from 'ws';
-import {
-	BOARD_HZ,
-	RateMeter,
-	quietTile,
-	type BoardRun,
-	type LiveRunInfo
-} from '../../src/lib/viewer/live-protocol';
+import { BOARD_HZ, quietTile, type BoardRun, type LiveRunInfo } from '../../src/lib/protocol/live';
+import { RateMeter } from '../../src/lib/viewer/live-meters';
 import type { PubSub, RunEvent } from '../pubsub';
 import { encode } from './encode';
 import type { LiveViewer } from './viewer';

@@ -1,23 +1,22 @@
 /** The live endpoint's view of people and runs, from PostgreSQL. */
+import type { Run } from '../../src/lib/api-types';
+import type { LiveRunInfo } from '../../src/lib/protocol/live';
 import { validateSession } from '../../src/lib/server/auth/sessions';
-import { getRun, listRuns } from '../../src/lib/server/ingest/read';
-import type { LiveRunInfo, LiveRunState } from '../../src/lib/viewer/live-protocol';
+import { getRun, listRuns } from '../../src/lib/server/runs';
 import type { LiveDirectory } from './endpoint';
 
-type RunRow = NonNullable<Awaited<ReturnType<typeof getRun>>> & Record<string, unknown>;
-
-function info(row: RunRow): LiveRunInfo {
+function info(run: Run): LiveRunInfo {
 	return {
-		id: String(row.id),
-		name: String(row.name),
-		rig: String(row.rig_name),
-		state: row.status as LiveRunState,
-		state_fields: row.state_fields as string[],
-		measurement_fields: row.measurement_fields as string[],
-		coords: row.coords as 'world' | 'ego',
-		first_t: row.first_t,
-		last_t: row.last_t,
-		frames: Number(row.frame_count)
+		id: run.id,
+		name: run.name,
+		rig: run.rig_name,
+		state: run.status,
+		state_fields: run.state_fields,
+		measurement_fields: run.measurement_fields,
+		coords: run.coords,
+		first_t: run.first_t,
+		last_t: run.last_t,
+		frames: run.frame_count
 	};
 }
 
@@ -29,8 +28,8 @@ export const postgresLiveDirectory: LiveDirectory = {
 			: null;
 	},
 	async findRun(runId) {
-		const row = await getRun(runId);
-		return row ? info(row) : null;
+		const run = await getRun(runId);
+		return run ? info(run) : null;
 	},
 	async liveRuns() {
 		const { runs } = await listRuns({ status: 'live', limit: 200, offset: 0 });

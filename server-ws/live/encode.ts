@@ -10,7 +10,7 @@ import type {
 	HelloMessage,
 	PongMessage,
 	StateMessage
-} from '../../src/lib/viewer/live-protocol';
+} from '../../src/lib/protocol/live';
 
 export function encode(
 	message: HelloMessage | StateMessage | PongMessage | BoardMessage

@@ -10,14 +10,14 @@ import { parse as parseCookies } from 'cookie';
 import { WebSocketServer, type RawData, type WebSocket } from 'ws';
 import { unpack } from '../../src/lib/msgpack';
 import { can, type Role } from '../../src/lib/permissions';
+import type { LiveStats } from '../../src/lib/api-types';
 import {
 	LIVE_PATH,
 	LIVE_PROTOCOL,
 	LiveCloseCode,
-	registerLiveStats,
-	type LiveRunInfo,
-	type LiveStats
-} from '../../src/lib/viewer/live-protocol';
+	type LiveRunInfo
+} from '../../src/lib/protocol/live';
+import { registerLiveStats } from '../../src/lib/server/live/stats';
 import { sharedPubSub, type PubSub, type RunEvent } from '../pubsub';
 import { closeWithin, Heartbeat, refuse, requestPath, safeDecode } from '../upgrade';
 import { BoardHub } from './board';

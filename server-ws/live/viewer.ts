@@ -7,7 +7,7 @@
  * before it was sent is counted, and the count travels with the next frame sent (`skipped`).
  */
 import type { WebSocket } from 'ws';
-import type { LiveViewerStats } from '../../src/lib/viewer/live-protocol';
+import type { LiveViewerStats } from '../../src/lib/api-types';
 import { frameWithCounts } from './encode';
 
 type Slot = 'frame' | 'state' | 'pong';

@@ -8,14 +8,14 @@ import { afterAll, beforeAll, describe, expect, inject, it } from 'vitest';
 import WebSocket from 'ws';
 import { unpack } from '$lib/msgpack';
 import { SkeinRigClient, type FrameInput } from '$lib/protocol/client';
+import type { LiveStats } from '$lib/api-types';
 import type {
 	BoardMessage,
 	HelloMessage,
 	LiveFrameMessage,
 	LiveServerMessage,
-	LiveStats,
 	StateMessage
-} from '$lib/viewer/live-protocol';
+} from '$lib/protocol/live';
 import { sqlClient } from '$server/db';
 import { startApp, type RunningApp } from '../support/app';
 import { Browserish } from '../support/client';

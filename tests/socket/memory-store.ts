@@ -11,7 +11,7 @@ import type {
 	OpenRunRequest,
 	OpenRunResult,
 	QuarantinedToStore
-} from '../../server-ws/ingest/store';
+} from '../../src/lib/server/ingest/contract';
 
 interface MemoryKey {
 	keyId: string;

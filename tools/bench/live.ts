@@ -15,7 +15,7 @@ import { hashSecret, newSecret, secretPrefix } from '../../src/lib/server/auth/t
 import { applyMigrations } from '../../src/lib/server/db/migrate';
 import { unpack } from '../../src/lib/msgpack';
 import { percentile as pct } from '../../src/lib/percentile';
-import type { LiveServerMessage } from '../../src/lib/viewer/live-protocol';
+import type { LiveServerMessage } from '../../src/lib/protocol/live';
 import { Browserish } from '../../tests/support/client';
 import { startApp } from '../../tests/support/app';
 import { buildIfStale } from '../lib/build';

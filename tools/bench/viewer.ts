@@ -13,7 +13,7 @@ import { resolve } from 'node:path';
 import postgres from 'postgres';
 import { chromium, type Page } from '@playwright/test';
 import { profileSummary, startProfile } from './viewer-profile';
-import { frameRow } from '../../src/lib/server/ingest/store';
+import { frameRow } from '../../src/lib/server/ingest/frame-rows';
 import { defaultMetricSettings } from '../../src/lib/metrics/settings';
 import { pack } from '../../src/lib/msgpack';
 import { percentile as pct } from '../../src/lib/percentile';

@@ -4,7 +4,8 @@ import { cardinalityStats, existence, type CardinalityStats } from './cardinalit
 import { nees as neesOf, subBlock } from './consistency';
 import { gospaFromSquaredDistances, squaredDistance, type GospaResult } from './gospa';
 import type { MetricSettings } from './settings';
-import { changeCoords, zoneOccupancy, type Coords, type PlanarObject } from './zones';
+import type { Coords } from '../runs';
+import { changeCoords, zoneOccupancy, type PlanarObject } from './zones';
 
 export interface FrameContext {
 	/** the run's state_fields; must include "x" and "y" */

@@ -47,7 +47,6 @@ export {
 	changeCoords,
 	insideProbability,
 	zoneOccupancy,
-	type Coords,
 	type PlanarObject,
 	type Zone
 } from './zones';

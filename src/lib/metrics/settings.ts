@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { COORDS } from '../runs';
 import { DEFAULT_MOT_THRESHOLD } from './tracks';
 import type { Zone } from './zones';
 
@@ -48,7 +49,7 @@ const interval = z
 
 export const zoneSchema = z.object({
 	name: z.string().trim().min(1).max(64),
-	coords: z.enum(['ego', 'world']),
+	coords: z.enum(COORDS),
 	x: interval,
 	y: interval,
 	angle: z.number().optional()

@@ -1,8 +1,7 @@
 /** Zone occupancy: the probability that at least one object lies inside a rectangle. */
 import type { EgoPose } from '../protocol/types';
+import type { Coords } from '../runs';
 import { gaussianRectProbability, type Cov2 } from './bivariate-normal';
-
-export type Coords = 'ego' | 'world';
 
 export interface Zone {
 	name: string;

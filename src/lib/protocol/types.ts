@@ -2,6 +2,7 @@
  * Ingest protocol v1: the shapes rigs send (see docs/protocol.md).
  * An absent set (undefined) means "not reported in this frame"; an empty array means "reported, and empty".
  */
+import type { Coords, RunStatus } from '../runs';
 
 export type ObjectId = string | number;
 
@@ -50,7 +51,7 @@ export interface RunSpec {
 	name: string;
 	state_fields: string[];
 	measurement_fields: string[];
-	coords?: 'world' | 'ego';
+	coords?: Coords;
 	units?: { length: 'm' };
 	tags?: string[];
 	notes?: string;
@@ -127,4 +128,4 @@ export const CloseCode = {
 } as const;
 
 /** The states ingest moves a run between (imported runs never pass through ingest). */
-export type IngestRunState = 'live' | 'ended' | 'interrupted';
+export type IngestRunState = Exclude<RunStatus, 'imported'>;

@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { COORDS, RUN_STATUSES } from '$lib/runs';
 
 const seq = z.coerce
 	.number({ error: 'must be a number' })
@@ -11,7 +12,7 @@ const time = z.coerce
 export const runListQuery = z.object({
 	rig: z.uuid({ error: 'rig must be a rig id' }).optional(),
 	status: z
-		.enum(['live', 'ended', 'interrupted', 'imported'], {
+		.enum(RUN_STATUSES, {
 			error: 'status must be live, ended, interrupted or imported'
 		})
 		.optional(),
@@ -104,7 +105,7 @@ export type PinSeverity = (typeof pinSeverities)[number];
 
 /** The view a pin was seen in; also what `?view=` carries in a link. */
 export const pinViewSchema = z.object({
-	coords: z.enum(['world', 'ego']).default('world'),
+	coords: z.enum(COORDS).default('world'),
 	zoom: z.number().positive().max(1e6),
 	cx: z.number().refine(Number.isFinite),
 	cy: z.number().refine(Number.isFinite),

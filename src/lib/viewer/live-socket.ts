@@ -4,7 +4,7 @@
  * can be told against device time whatever this machine's clock says. No DOM beyond WebSocket.
  */
 import { pack, unpack } from '../msgpack';
-import { LiveCloseCode, type LiveServerMessage } from './live-protocol';
+import { LiveCloseCode, type LiveServerMessage } from '$lib/protocol/live';
 
 export type LiveSocketStatus = 'connecting' | 'open' | 'retrying' | 'closed';
 

@@ -1,5 +1,5 @@
 import { pgTable } from 'drizzle-orm/pg-core';
-import { frameColumns } from './schema/rigs';
+import { frameColumns } from './schema/runs';
 
 /**
  * Frames are range-partitioned by `ts` (the frame's device time) — one partition a day.

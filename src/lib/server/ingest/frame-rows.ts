@@ -4,7 +4,7 @@
  */
 import { frameMetrics, type FrameMetrics, type MetricFrame } from '$lib/metrics/frame';
 import type { MetricSettings } from '$lib/metrics/settings';
-import type { Coords } from '$lib/metrics/zones';
+import type { Coords } from '$lib/runs';
 
 export interface RowContext {
 	stateFields: string[];

@@ -5,8 +5,8 @@
  */
 import { frameMetrics } from '$lib/metrics';
 import { sqlClient } from '$server/db';
-import { SETTINGS_TTL_MS } from '$server/ingest/store';
 import { decodeStoredFrame, frameContext, metricRun } from './run';
+import { SETTINGS_TTL_MS } from './settings';
 
 export type RecomputeOutcome = 'done' | 'superseded' | 'gone';
 

@@ -5,32 +5,23 @@ import {
 	type FrameContext,
 	type MetricSettings
 } from '$lib/metrics';
+import type { Run } from '$lib/api-types';
 import { fromMsgpack } from '$lib/protocol/codec';
 import type { Frame, FrameMessage } from '$lib/protocol/types';
 import { sqlClient } from '$server/db';
+import { getRun } from '$server/runs';
 
+/** The fields of a Run the metric code reads, and its settings checked against its state fields. */
 export interface MetricRun {
-	id: string;
-	name: string;
-	status: 'live' | 'ended' | 'interrupted' | 'imported';
-	stateFields: string[];
-	coords: 'world' | 'ego';
-	lengthUnit: string;
-	frameCount: number;
-	nextSeq: number;
+	id: Run['id'];
+	name: Run['name'];
+	status: Run['status'];
+	stateFields: Run['state_fields'];
+	coords: Run['coords'];
+	lengthUnit: Run['length_unit'];
+	frameCount: Run['frame_count'];
+	nextSeq: Run['next_seq'];
 	settings: MetricSettings;
-}
-
-interface RunRow {
-	id: string;
-	name: string;
-	status: MetricRun['status'];
-	state_fields: string[];
-	coords: 'world' | 'ego';
-	length_unit: string;
-	frame_count: number;
-	next_seq: number;
-	metric_settings: unknown;
 }
 
 /** The run's stored settings, or the defaults when none (or none that still validate) are stored. */
@@ -41,11 +32,7 @@ export function settingsOf(stored: unknown, stateFields: readonly string[]): Met
 }
 
 export async function metricRun(id: string): Promise<MetricRun | null> {
-	const sql = sqlClient();
-	const [row] = await sql<RunRow[]>`
-		select id, name, status, state_fields, coords, length_unit, frame_count::float8 as frame_count,
-			next_seq::float8 as next_seq, metric_settings
-		from runs where id = ${id}`;
+	const row = await getRun(id);
 	if (!row) return null;
 	return {
 		id: row.id,

@@ -1,16 +1,13 @@
 /** A run's metric settings and the state of the recompute a settings change starts. */
+import type { RecomputeState, RecomputeStatus } from '$lib/api-types';
 import { parseMetricSettings, type MetricSettings } from '$lib/metrics';
 import { sqlClient } from '$server/db';
 
-export type RecomputeState = 'idle' | 'queued' | 'running' | 'done' | 'failed';
-
-export interface RecomputeStatus {
-	state: RecomputeState;
-	/** 0–100 */
-	progress: number;
-	error?: string;
-	updated_at?: string;
-}
+/**
+ * How stale a live run's metric settings may get: the ingest store re-reads them this often, and the recompute
+ * job waits this long before it finishes.
+ */
+export const SETTINGS_TTL_MS = 1000;
 
 export async function recomputeStatus(runId: string): Promise<RecomputeStatus> {
 	const sql = sqlClient();

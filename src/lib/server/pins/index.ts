@@ -1,6 +1,7 @@
 /** Pins: moments of a run marked for triage, with the view they were seen in. */
 import type { NewPin, PinView } from '$lib/validation/runs';
 import { sqlClient } from '$server/db';
+import { keepRun, lockRunSpan } from '$server/runs/kept';
 
 export interface PinRow {
 	id: string;
@@ -39,8 +40,7 @@ export class PinError extends Error {
 export async function createPin(runId: string, userId: string, pin: NewPin): Promise<PinRow> {
 	const sql = sqlClient();
 	return sql.begin(async (tx) => {
-		const [run] = await tx<{ first_t: number | null; last_t: number | null }[]>`
-			select first_t, last_t from runs where id = ${runId} for update`;
+		const run = await lockRunSpan(tx, runId);
 		if (!run) throw new PinError('_', 'No such run');
 		if (run.first_t === null || run.last_t === null)
 			throw new PinError('t', 'This run has no frames to pin yet');
@@ -55,7 +55,7 @@ export async function createPin(runId: string, userId: string, pin: NewPin): Pro
 			values (${runId}, ${pin.t}, ${frame?.seq ?? null}, ${pin.title}, ${pin.note}, ${pin.category}, ${pin.severity},
 				${JSON.stringify(pin.view)}::text::jsonb, ${userId})
 			returning id`;
-		await tx`update runs set kept = true where id = ${runId}`;
+		await keepRun(tx, runId);
 		const [out] = await tx<PinRow[]>`
 			select ${tx.unsafe(pinColumns)} from pins p join runs r on r.id = p.run_id left join users u on u.id = p.created_by
 			where p.id = ${row.id}`;

@@ -1,4 +1,5 @@
 import type { EgoPose } from '../../protocol/types';
+import type { Coords } from '../../runs';
 import type { Vec4 } from '../motion';
 import type { Rng } from '../../random';
 import type { SensorSpec } from '../sensor';
@@ -52,7 +53,7 @@ export type EgoLeg =
  */
 export interface BirthRegion {
 	label: string;
-	frame: 'world' | 'ego';
+	frame: Coords;
 	mean: Vec4;
 	sd: Vec4;
 	weight: number;
@@ -70,7 +71,7 @@ export type Incident =
 			label: string;
 			fromS: number;
 			toS: number;
-			frame: 'world' | 'ego';
+			frame: Coords;
 			centre: [number, number];
 			radius: number;
 			/** mean returns per scan inside the disc */

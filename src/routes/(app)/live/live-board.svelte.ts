@@ -2,7 +2,7 @@
  * The Live board's state: one socket to `/live`, whose summaries (at most 4 a second) replace the tiles,
  * applied on the next animation frame.
  */
-import type { BoardRun } from '$lib/viewer/live-protocol';
+import type { BoardRun } from '$lib/protocol/live';
 import { LiveSocket, type LiveSocketStatus } from '$lib/viewer/live-socket';
 
 export class LiveBoard {

@@ -1,4 +1,4 @@
-import { runFacets } from '$server/ingest/read';
+import { runFacets } from '$server/runs';
 import type { PageServerLoad } from './$types';
 
 /** Only the filter choices; the table itself is fetched by the browser from /api/runs. */

@@ -1,21 +1,6 @@
 /** The Runs table's state: filters, sort and page, fetched from /api/runs whenever they change. */
+import type { ApiErrorBody, RunList, RunListItem } from '$lib/api-types';
 import type { RunSortKey } from '$lib/validation/runs';
-
-export interface RunListRow {
-	id: string;
-	rig_id: string;
-	rig_name: string;
-	name: string;
-	status: 'live' | 'ended' | 'interrupted' | 'imported';
-	started_at: string;
-	/** device time of the first frame, or when the run was opened */
-	recorded_at: string;
-	duration_s: number | null;
-	frame_count: number;
-	gospa_mean: number | null;
-	tags: string[];
-	kept: boolean;
-}
 
 export interface RunFilters {
 	rig: string;
@@ -33,7 +18,7 @@ export class RunsList {
 	sort = $state<RunSortKey>('started');
 	dir = $state<'asc' | 'desc'>('desc');
 	page = $state(0);
-	rows = $state.raw<RunListRow[]>([]);
+	rows = $state.raw<RunListItem[]>([]);
 	total = $state(0);
 	loading = $state(true);
 	error = $state<string | null>(null);
@@ -63,11 +48,7 @@ export class RunsList {
 				signal: abort.signal,
 				headers: { accept: 'application/json' }
 			});
-			const body = (await res.json()) as {
-				runs?: RunListRow[];
-				total?: number;
-				error?: { message: string; details?: Record<string, string> };
-			};
+			const body = (await res.json()) as Partial<RunList> & Partial<ApiErrorBody>;
 			if (!res.ok) {
 				this.error = body.error?.details
 					? Object.values(body.error.details).join('; ')

@@ -1,5 +1,6 @@
 import { json } from '@sveltejs/kit';
-import { readLiveStats } from '$lib/viewer/live-protocol';
+import type { LiveStats } from '$lib/api-types';
+import { readLiveStats } from '$server/live/stats';
 import type { RequestHandler } from './$types';
 
 /**
@@ -7,4 +8,4 @@ import type { RequestHandler } from './$types';
  * one frame pending, however slow it reads.
  */
 export const GET: RequestHandler = () =>
-	json(readLiveStats(), { headers: { 'cache-control': 'no-store' } });
+	json(readLiveStats() satisfies LiveStats, { headers: { 'cache-control': 'no-store' } });

@@ -1,3 +1,4 @@
 export * from './people';
 export * from './rigs';
+export * from './runs';
 export * from './pins';

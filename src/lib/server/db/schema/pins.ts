@@ -9,7 +9,7 @@ import {
 	uuid
 } from 'drizzle-orm/pg-core';
 import { users } from './people';
-import { runs } from './rigs';
+import { runs } from './runs';
 
 const ts = (name: string) => timestamp(name, { withTimezone: true, mode: 'date' });
 

@@ -3,30 +3,29 @@ import { can } from '$lib/permissions';
 import { newPinSchema, pinViewSchema } from '$lib/validation/runs';
 import { fieldErrors } from '$lib/validation/people';
 import { formError } from '$server/forms';
-import { getRun } from '$server/ingest/read';
+import { getRun } from '$server/runs';
 import { createPin, listRunPins, PinError } from '$server/pins';
 import type { Actions, PageServerLoad } from './$types';
 
 export const load = (async ({ params, locals }) => {
-	const [found, pins] = await Promise.all([getRun(params.id), listRunPins(params.id)]);
-	if (!found) error(404, 'No such run');
-	const run = found as typeof found & Record<string, unknown>;
+	const [run, pins] = await Promise.all([getRun(params.id), listRunPins(params.id)]);
+	if (!run) error(404, 'No such run');
 	return {
 		run: {
-			id: String(run.id),
-			name: String(run.name),
-			rigName: String(run.rig_name),
-			status: String(run.status),
-			stateFields: run.state_fields as string[],
-			measurementFields: run.measurement_fields as string[],
-			coords: run.coords as 'world' | 'ego',
-			lengthUnit: String(run.length_unit),
+			id: run.id,
+			name: run.name,
+			rigName: run.rig_name,
+			status: run.status,
+			stateFields: run.state_fields,
+			measurementFields: run.measurement_fields,
+			coords: run.coords,
+			lengthUnit: run.length_unit,
 			firstT: run.first_t,
 			lastT: run.last_t,
 			duration: run.duration_s ?? 0,
 			frameCount: run.frame_count,
 			frameRate: run.frame_rate_hz,
-			metricSettings: (run.metric_settings as Record<string, unknown> | null) ?? null
+			metricSettings: run.metric_settings
 		},
 		pins: pins.map((p) => ({ ...p, created_at: new Date(p.created_at).toISOString() })),
 		canPin: can(locals.user?.role, 'pins:create')

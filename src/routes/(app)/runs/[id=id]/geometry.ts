@@ -1,7 +1,6 @@
 /** Plane geometry for the scene: changing coordinates with the ego pose and covariance ellipses. */
 import type { EgoPose } from '$lib/protocol/types';
-
-export type Coords = 'world' | 'ego';
+import type { Coords } from '$lib/runs';
 
 /** x' = c·x − s·y + tx, y' = s·x + c·y + ty; `rot` is the angle added to headings */
 export interface Rigid {

@@ -4,13 +4,9 @@
  * server's clock (see LiveSocket), with its p95 over the last minute. Any move of the playhead by the person
  * (scrub, step, play) leaves following; `L` (follow()) returns to the live edge.
  */
-import {
-	LatencyWindow,
-	RateMeter,
-	type LiveFrameMessage,
-	type LiveRunState,
-	type LiveServerMessage
-} from '$lib/viewer/live-protocol';
+import type { LiveFrameMessage, LiveServerMessage } from '$lib/protocol/live';
+import type { RunStatus } from '$lib/runs';
+import { LatencyWindow, RateMeter } from '$lib/viewer/live-meters';
 import { LiveSocket, type LiveSocketStatus } from '$lib/viewer/live-socket';
 import type { RunPlayer } from './player.svelte';
 
@@ -31,7 +27,7 @@ export interface LiveFollowOptions {
 
 export class LiveFollow {
 	connection = $state<LiveSocketStatus | 'idle'>('idle');
-	runState = $state<LiveRunState | null>(null);
+	runState = $state<RunStatus | null>(null);
 	/** the state changed while this page watched (ended, interrupted, live again) */
 	stateChangedAt = $state<number | null>(null);
 	/** wants the live edge; isFollowing also checks that the playhead was not moved since */

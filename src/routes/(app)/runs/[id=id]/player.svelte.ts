@@ -10,7 +10,9 @@ import {
 	type MetricSettings
 } from '$lib/metrics';
 import { unpack } from '$lib/msgpack';
+import type { FramePage } from '$lib/api-types';
 import type { Frame } from '$lib/protocol/types';
+import type { Coords } from '$lib/runs';
 import { FrameCache } from '$lib/viewer/frame-cache';
 
 export const SPEEDS = [0.1, 0.25, 0.5, 1, 2, 4, 8, 16] as const;
@@ -25,7 +27,7 @@ export interface PlayerRun {
 	duration: number;
 	frameRate: number | null;
 	stateFields: string[];
-	coords: 'world' | 'ego';
+	coords: Coords;
 	metricSettings: Record<string, unknown> | null;
 }
 
@@ -119,7 +121,7 @@ export class RunPlayer {
 			}
 		);
 		if (!res.ok) throw new Error(`frames: HTTP ${res.status}`);
-		return (unpack(new Uint8Array(await res.arrayBuffer())) as { frames: Frame[] }).frames;
+		return (unpack(new Uint8Array(await res.arrayBuffer())) as FramePage).frames;
 	}
 
 	/** evaluation per frame, kept as long as the frame is cached */

@@ -16,9 +16,9 @@ import {
 	identity,
 	niceLength,
 	rigidBetween,
-	type Coords,
 	type Rigid
 } from './geometry';
+import type { Coords } from '$lib/runs';
 import { LineBatch, MarkerBatch, rgba, Shape } from './scene-batches';
 
 type Pixi = typeof import('pixi.js');

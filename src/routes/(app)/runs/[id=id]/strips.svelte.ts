@@ -2,25 +2,10 @@
  * The strips' data: the run's metric series downsampled on the server, refetched finer when the strips are
  * zoomed in, and the GOSPA spikes the timeline marks.
  */
+import type { RunSeries, SeriesColumn, SeriesResponse } from '$lib/api-types';
 import { neesBounds, type MetricSettings } from '$lib/metrics';
 import { setColors, withAlpha } from '$lib/set-colors';
 import { bucketsFor, needsRefinement } from '$lib/viewer/series';
-
-interface Stats {
-	min: (number | null)[];
-	max: (number | null)[];
-	mean: (number | null)[];
-}
-
-export interface Series {
-	from: number;
-	to: number;
-	width: number;
-	t: number[];
-	frames: number[];
-	columns: Record<string, Stats>;
-	zones: Record<string, Stats>;
-}
 
 export interface StripSpec {
 	id: string;
@@ -41,8 +26,8 @@ export interface StripSpec {
 const GROW_MS = 2000;
 
 export class StripsState {
-	series = $state.raw<Series | null>(null);
-	overview = $state.raw<Series | null>(null);
+	series = $state.raw<RunSeries | null>(null);
+	overview = $state.raw<RunSeries | null>(null);
 	range = $state<[number, number] | null>(null);
 	error = $state<string | null>(null);
 
@@ -89,7 +74,7 @@ export class StripsState {
 				{ signal: abort.signal }
 			);
 			if (!res.ok) throw new Error(`series: HTTP ${res.status}`);
-			const body = (await res.json()) as { series: Series | null };
+			const body = (await res.json()) as SeriesResponse;
 			this.series = body.series;
 			if (!this.range) this.overview = body.series;
 			this.error = null;
@@ -127,7 +112,7 @@ export class StripsState {
 	readonly strips = $derived.by((): StripSpec[] => {
 		const s = this.series;
 		if (!s) return [];
-		const col = (c: string) => s.columns[c] ?? { min: [], max: [], mean: [] };
+		const col = (c: SeriesColumn) => s.columns[c];
 		const { c, p } = this.settings;
 		const half = c ** p / 2;
 		const loc = col('gospa_localization').mean;

@@ -1,14 +1,15 @@
 /** What the viewer chose to see: layers, σ level, coordinates and the selected object. */
+import type { Coords } from '$lib/runs';
 import type { PinView } from '$lib/validation/runs';
 import { allLayers, type Layer } from '$lib/viewer/view';
 
 export class ViewState {
 	layers = $state<Layer[]>([...allLayers]);
 	sigma = $state(2);
-	coords = $state<'world' | 'ego'>('world');
+	coords = $state<Coords>('world');
 	selected = $state<string | null>(null);
 
-	constructor(initial: PinView | null, runCoords: 'world' | 'ego') {
+	constructor(initial: PinView | null, runCoords: Coords) {
 		this.coords = initial?.coords ?? runCoords;
 		if (initial) {
 			this.layers = [...initial.layers];

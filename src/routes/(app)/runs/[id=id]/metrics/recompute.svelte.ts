@@ -1,11 +1,5 @@
 /** Follows a run's metric recompute by polling the settings endpoint while one is queued or running. */
-export type RecomputeState = 'idle' | 'queued' | 'running' | 'done' | 'failed';
-
-export interface RecomputeStatus {
-	state: RecomputeState;
-	progress: number;
-	error?: string;
-}
+import type { RecomputeStatus, RunSettingsResponse } from '$lib/api-types';
 
 export class RecomputeWatch {
 	status = $state<RecomputeStatus>({ state: 'idle', progress: 0 });
@@ -39,7 +33,7 @@ export class RecomputeWatch {
 				headers: { accept: 'application/json' }
 			});
 			if (res.ok) {
-				const body = (await res.json()) as { recompute: RecomputeStatus };
+				const body = (await res.json()) as RunSettingsResponse;
 				const was = this.active;
 				this.status = body.recompute;
 				if (was && this.status.state === 'done') this.#onDone();

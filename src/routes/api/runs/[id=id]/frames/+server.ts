@@ -2,7 +2,8 @@ import { json } from '@sveltejs/kit';
 import { pack } from '$lib/msgpack';
 import { frameQuery } from '$lib/validation/runs';
 import { ApiError, endpoint } from '$server/api';
-import { getRun, readFrames } from '$server/ingest/read';
+import { getRun } from '$server/runs';
+import { readFrames } from '$server/runs/frames';
 import { readQuery } from '$server/query';
 import type { RequestHandler } from './$types';
 

@@ -1,7 +1,7 @@
 import { json } from '@sveltejs/kit';
 import { newPinSchema } from '$lib/validation/runs';
 import { ApiError, endpoint, readJson } from '$server/api';
-import { getRun } from '$server/ingest/read';
+import { getRun } from '$server/runs';
 import { createPin, listRunPins, PinError } from '$server/pins';
 import type { RequestHandler } from './$types';
 

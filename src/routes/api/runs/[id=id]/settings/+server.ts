@@ -1,4 +1,5 @@
 import { json } from '@sveltejs/kit';
+import type { RunSettingsResponse } from '$lib/api-types';
 import { defaultMetricSettings } from '$lib/metrics';
 import { ApiError, endpoint } from '$server/api';
 import { saveSettingsAndRecompute } from '$server/metrics/jobs';
@@ -21,7 +22,7 @@ export const GET: RequestHandler = endpoint(async ({ params }) => {
 		state_fields: run.stateFields,
 		unit: run.lengthUnit,
 		recompute: await recomputeStatus(run.id)
-	});
+	} satisfies RunSettingsResponse);
 });
 
 /** Replaces the settings and queues a recompute of the run's stored metric columns. */
@@ -36,5 +37,8 @@ export const PUT: RequestHandler = endpoint(async ({ params, request }) => {
 	const checked = checkSettings(body, run.stateFields);
 	if (!checked.ok) throw new ApiError('invalid', 'Some settings are not valid', checked.errors);
 	await saveSettingsAndRecompute(run.id, checked.settings);
-	return json({ settings: checked.settings, recompute: await recomputeStatus(run.id) });
+	return json({
+		settings: checked.settings,
+		recompute: await recomputeStatus(run.id)
+	} satisfies Pick<RunSettingsResponse, 'settings' | 'recompute'>);
 });

@@ -2,8 +2,8 @@
  * What the ingest socket needs from storage. The socket logic knows nothing about the database;
  * the PostgreSQL implementation lives in src/lib/server/ingest/.
  */
-import type { FrameMetrics, MetricFrame } from '../../src/lib/metrics/frame';
-import type { Encoding, Frame, IngestRunState, RunSpec } from '../../src/lib/protocol/types';
+import type { FrameMetrics, MetricFrame } from '$lib/metrics/frame';
+import type { Encoding, Frame, IngestRunState, RunSpec } from '$lib/protocol/types';
 
 /** The rig a feed key belongs to. */
 export interface RigRef {

@@ -1,18 +1,16 @@
 /**
  * The viewer socket (docs/live.md): what Skein sends to people watching runs live, shared by the server
- * (server-ws/live) and the browser. Every message is one MessagePack map with a string `type`.
+ * (server-ws/live) and the browser (src/lib/viewer). Every message is one MessagePack map with a string `type`.
  */
-import type { FrameMetrics } from '$lib/metrics/frame';
-import type { Frame } from '$lib/protocol/types';
-import { percentile } from '../percentile';
+import type { FrameMetrics } from '../metrics/frame';
+import type { Coords, RunStatus } from '../runs';
+import type { Frame } from './types';
 
 export const LIVE_PROTOCOL = 1;
 /** `/live/{runId}` follows one run; `/live` alone is the Live board's summary socket */
 export const LIVE_PATH = '/live';
 /** summaries per second the board socket sends at most */
 export const BOARD_HZ = 4;
-
-export type LiveRunState = 'live' | 'ended' | 'interrupted' | 'imported';
 
 /** Close codes of the viewer socket besides the standard ones. */
 export const LiveCloseCode = {
@@ -28,10 +26,10 @@ export interface LiveRunInfo {
 	id: string;
 	name: string;
 	rig: string;
-	state: LiveRunState;
+	state: RunStatus;
 	state_fields: string[];
 	measurement_fields: string[];
-	coords: 'world' | 'ego';
+	coords: Coords;
 	/** device time of the first stored frame, s since the epoch; null before the first frame */
 	first_t: number | null;
 	last_t: number | null;
@@ -64,7 +62,7 @@ export interface LiveFrameMessage {
 
 export interface StateMessage {
 	type: 'state';
-	state: LiveRunState;
+	state: RunStatus;
 	/** server clock, ms since the epoch */
 	at: number;
 }
@@ -82,7 +80,7 @@ export interface BoardRun {
 	id: string;
 	name: string;
 	rig: string;
-	state: LiveRunState;
+	state: RunStatus;
 	seq: number | null;
 	t: number | null;
 	/** frames per second of device time over the last 2 s */
@@ -131,104 +129,4 @@ export interface PingMessage {
 	type: 'ping';
 	/** the client's clock, ms since the epoch */
 	c: number;
-}
-
-/** Per-viewer figures of the live endpoint, for operators and the tests (GET /live as JSON). */
-export interface LiveViewerStats {
-	run: string | null;
-	/** messages waiting to be sent to this viewer: never more than one frame plus a state and a pong */
-	pending: number;
-	/** bytes ws has not handed to the kernel yet */
-	buffered: number;
-	sent: number;
-	skipped: number;
-}
-
-export interface LiveStats {
-	viewers: LiveViewerStats[];
-}
-
-/** Where the socket server registers its live statistics, read by the SvelteKit side (another module copy). */
-export const LIVE_STATS_KEY = 'skein.live.stats';
-
-export function readLiveStats(): LiveStats {
-	const holder = globalThis as { [key: symbol]: (() => LiveStats)[] | undefined };
-	const sources = holder[Symbol.for(LIVE_STATS_KEY)] ?? [];
-	return { viewers: sources.flatMap((s) => s().viewers) };
-}
-
-export function registerLiveStats(source: () => LiveStats): () => void {
-	const holder = globalThis as { [key: symbol]: (() => LiveStats)[] | undefined };
-	const sources = (holder[Symbol.for(LIVE_STATS_KEY)] ??= []);
-	sources.push(source);
-	return () => {
-		const i = sources.indexOf(source);
-		if (i >= 0) sources.splice(i, 1);
-	};
-}
-
-/** Latency samples kept for a window of time; nearest-rank percentiles over what is left. */
-export class LatencyWindow {
-	#t: number[] = [];
-	#v: number[] = [];
-	readonly windowMs: number;
-
-	constructor(windowMs = 60_000) {
-		this.windowMs = windowMs;
-	}
-
-	add(now: number, value: number) {
-		this.#t.push(now);
-		this.#v.push(value);
-		this.#trim(now);
-	}
-
-	#trim(now: number) {
-		let drop = 0;
-		while (drop < this.#t.length && this.#t[drop] < now - this.windowMs) drop++;
-		if (drop) {
-			this.#t.splice(0, drop);
-			this.#v.splice(0, drop);
-		}
-	}
-
-	get size() {
-		return this.#v.length;
-	}
-
-	percentile(p: number, now?: number): number | null {
-		if (now !== undefined) this.#trim(now);
-		if (!this.#v.length) return null;
-		return percentile(this.#v, p);
-	}
-}
-
-/** Frames per second of device time, from the t of the frames seen (skipped ones counted in). */
-export class RateMeter {
-	#t: number[] = [];
-	#n: number[] = [];
-	readonly spanS: number;
-
-	constructor(spanS = 2) {
-		this.spanS = spanS;
-	}
-
-	/** `count` frames up to device time t (a message standing for skipped frames counts them too) */
-	add(t: number, count = 1) {
-		this.#t.push(t);
-		this.#n.push(count);
-		while (this.#t.length > 1 && this.#t[0] < t - this.spanS) {
-			this.#t.shift();
-			this.#n.shift();
-		}
-	}
-
-	get rate(): number | null {
-		if (this.#t.length < 2) return null;
-		const span = this.#t[this.#t.length - 1] - this.#t[0];
-		if (span <= 0) return null;
-		let n = 0;
-		for (let i = 1; i < this.#n.length; i++) n += this.#n[i];
-		return n / span;
-	}
 }
