@@ -96,10 +96,9 @@ export function ruleFor(
 	if (!entry) return undefined;
 	if (method === 'GET' || method === 'HEAD' || method === 'OPTIONS') return entry.read;
 	const write = entry.write;
-	if (write === undefined) return undefined;
-	if (typeof write === 'string') return write;
 	const name = formActionName(search);
-	return name === null ? undefined : write[name];
+	if (write === undefined || name === null) return undefined;
+	return typeof write === 'string' ? write : write[name];
 }
 
 /**

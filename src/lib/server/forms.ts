@@ -50,7 +50,6 @@ const probeOrigin = 'http://skein.invalid';
 export function safeNext(next: string | null): string {
 	if (!next || next.length > 2048 || !next.startsWith('/') || next.startsWith('//'))
 		return nextFallback;
-	// eslint-disable-next-line no-control-regex
 	if (/[\u0000-\u001f\u007f\\]/.test(next)) return nextFallback;
 	let url: URL;
 	try {

@@ -5,7 +5,6 @@
  */
 import { z } from 'zod';
 
-// eslint-disable-next-line no-control-regex
 const controlCharacters = /[\u0000-\u001f\u007f]/;
 
 /** Free text: trimmed, at most `max` characters, no control characters (PostgreSQL text cannot hold a NUL). */

@@ -30,7 +30,9 @@ export const guard: Handle = async ({ event, resolve }) => {
 	if (!routeId) return resolve(event);
 	const entry = routeRules[routeId];
 	const isApi = routeId.startsWith('/api/') || entry?.scraper === true;
-	const rule = ruleFor(routeId, event.request.method, event.url.searchParams);
+	// `?/name` picks a form action on pages only; an endpoint ignores it
+	const search = isApi ? new URLSearchParams() : event.url.searchParams;
+	const rule = ruleFor(routeId, event.request.method, search);
 
 	const deny = (status: 401 | 403 | 405, message: string) => {
 		if (isApi) {
