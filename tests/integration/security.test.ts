@@ -8,9 +8,11 @@ import { eq } from 'drizzle-orm';
 import { afterAll, beforeAll, describe, expect, inject, it } from 'vitest';
 import { verifyPassword } from '$server/auth/password';
 import { db, schema } from '$server/db';
+import { SkeinRigClient } from '$lib/protocol/client';
 import { startApp, type RunningApp } from '../support/app';
 import { Browserish } from '../support/client';
 import { makePerson, uniqueEmail } from '../support/factories';
+import { makeRigWithKey } from '../support/rigs';
 import { waitForMail } from './mail';
 
 let base: string;
@@ -239,6 +241,35 @@ describe('a new password ends the old credentials', () => {
 		expect(await right.text()).toContain('Too many failed sign-ins for this account');
 		const [row] = await db().select().from(schema.users).where(eq(schema.users.id, p.id));
 		expect(await verifyPassword(row.passwordHash, p.password)).toBe(true);
+	});
+});
+
+describe('the quarantine needs quarantine:read', () => {
+	it('viewers and triage are refused it; engineers and operators read it', async () => {
+		const rig = await makeRigWithKey('quarantine-access');
+		const client = new SkeinRigClient({
+			url: base.replace('http', 'ws') + '/ingest/v1',
+			key: rig.secret,
+			clientRunId: 'quarantine-access',
+			run: { name: 'quarantine access', state_fields: ['x', 'y'], measurement_fields: ['x', 'y'] }
+		});
+		const { runId } = await client.start();
+		client.send({ t: 1_790_400_000, estimates: [{ id: 'a', x: [1, 2] }] });
+		await client.close();
+		for (const [role, status] of [
+			['viewer', 403],
+			['triage', 403],
+			['engineer', 200],
+			['operator', 200]
+		] as const) {
+			const p = await makePerson(role, `quarantine-${role}`);
+			const c = new Browserish(base);
+			await c.signIn(p.email, p.password);
+			const res = await c.json(`/api/runs/${runId}/quarantine`, 'GET');
+			expect(res.status, role).toBe(status);
+			// the run itself stays readable for everyone
+			expect((await c.json(`/api/runs/${runId}`, 'GET')).status, role).toBe(200);
+		}
 	});
 });
 
