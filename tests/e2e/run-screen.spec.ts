@@ -3,8 +3,8 @@
  * opened, played, paused, stepped, sought by URL, its layers toggled, an object selected, a moment pinned and
  * reopened by its link. A viewer sees pins but cannot pin.
  */
-import { expect, test, type Page } from '@playwright/test';
-import { admin, viewer, makeRigWithKey, signIn } from './support';
+import type { Page } from '@playwright/test';
+import { admin, viewer, makeRigWithKey, signIn, expect, test } from './support';
 import { SkeinRigClient } from '../../src/lib/protocol/client';
 import { MEASUREMENT_FIELDS, STATE_FIELDS, simulate } from '../../src/lib/tracking';
 
