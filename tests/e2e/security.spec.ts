@@ -3,6 +3,8 @@
  * draws under it without a single violation (the `test` of ./support fails on any), and no other origin can
  * frame a page.
  */
+import { createServer } from 'node:http';
+import type { AddressInfo } from 'node:net';
 import { test as unwatched } from '@playwright/test';
 import { admin, expect, makeRigWithKey, signIn, test } from './support';
 import { SkeinRigClient } from '../../src/lib/protocol/client';
@@ -54,13 +56,24 @@ test('the Run screen draws its scene under the page policy', async ({ page }) =>
 });
 
 unwatched('another origin cannot frame a page', async ({ page }) => {
-	await page.goto('about:blank');
-	await page.setContent(
-		`<iframe id="f" src="${base}/sign-in" onload="window.__framed = true"></iframe>`
-	);
-	// the frame has finished loading: the page itself, or chromium's error page in its place
-	await page.waitForFunction(() => (window as unknown as { __framed?: boolean }).__framed === true);
-	await page.waitForTimeout(300);
-	const signIn = page.frameLocator('#f').getByRole('button', { name: 'Sign in' });
-	expect(await signIn.count()).toBe(0);
+	// a page of another origin: another port on loopback (chromium keeps pages it cannot place on the network
+	// from loading loopback frames at all, so the framing page must really be served from there)
+	const framer = createServer((_req, res) => {
+		res.writeHead(200, { 'content-type': 'text/html' });
+		res.end(`<iframe id="f" src="${base}/sign-in" onload="window.__framed = true"></iframe>`);
+	});
+	await new Promise<void>((r) => framer.listen(0, '127.0.0.1', r));
+	try {
+		const { port } = framer.address() as AddressInfo;
+		await page.goto(`http://127.0.0.1:${port}/`);
+		// the frame has finished loading: the page itself, or chromium's error page in its place
+		await page.waitForFunction(
+			() => (window as unknown as { __framed?: boolean }).__framed === true
+		);
+		const frame = page.frames().find((f) => f !== page.mainFrame())!;
+		expect(frame.url()).not.toBe(`${base}/sign-in`);
+		expect(await page.frameLocator('#f').getByRole('button', { name: 'Sign in' }).count()).toBe(0);
+	} finally {
+		framer.close();
+	}
 });
