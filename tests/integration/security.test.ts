@@ -341,6 +341,24 @@ describe('/metrics and the trusted proxy', () => {
 			expect((await fetch(m, from('203.0.113.7', wrong))).status).toBe(401);
 		});
 
+		it('a request that did not come through the proxy gets a 400, not a 500', async () => {
+			const form = {
+				method: 'POST',
+				redirect: 'manual' as const,
+				headers: {
+					origin: proxied.url,
+					accept: 'text/html',
+					'content-type': 'application/x-www-form-urlencoded'
+				},
+				body: new URLSearchParams({ email: uniqueEmail('direct'), password: 'x' }).toString()
+			};
+			const direct = await fetch(`${proxied.url}/sign-in`, form);
+			expect(direct.status).toBe(400);
+			expect(await direct.text()).toContain('through its proxy');
+			expect((await fetch(`${proxied.url}/api/me`)).status).toBe(400);
+			expect((await fetch(`${proxied.url}/healthz`)).status).toBe(200);
+		});
+
 		it('the sign-in throttle counts each forwarded address on its own', async () => {
 			const post = (address: string, email: string) =>
 				fetch(`${proxied.url}/sign-in`, {
