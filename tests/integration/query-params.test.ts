@@ -6,11 +6,10 @@
 import { readdirSync, readFileSync, statSync } from 'node:fs';
 import { join, relative, resolve } from 'node:path';
 import { beforeAll, describe, expect, inject, it } from 'vitest';
-import { SkeinRigClient } from '$lib/protocol/client';
 import { listQueries, pageQueries } from '$lib/validation/queries';
 import { Browserish } from '../support/client';
 import { makePerson } from '../support/factories';
-import { makeRigWithKey } from '../support/rigs';
+import { streamRun } from '../support/rigs';
 
 const routesDir = resolve(import.meta.dirname, '../../src/routes');
 
@@ -67,22 +66,16 @@ beforeAll(async () => {
 	admin = new Browserish(base);
 	await admin.signIn(p.email, p.password);
 	// a real run, so that values the schemas take reach the SQL behind each endpoint
-	const rig = await makeRigWithKey('query-walk');
-	const client = new SkeinRigClient({
-		url: base.replace('http', 'ws') + '/ingest/v1',
-		key: rig.secret,
-		clientRunId: 'qp1',
-		run: { name: 'query walk', state_fields: ['x', 'y'], measurement_fields: ['x', 'y'] }
-	});
-	({ runId } = await client.start());
-	for (let k = 0; k < 5; k++)
-		client.send({
+	runId = await streamRun(
+		base,
+		'query walk',
+		Array.from({ length: 5 }, (_, k) => ({
 			t: 1_790_300_000 + k * 0.1,
 			measurements: [{ z: [k, 1] }],
 			estimates: [{ id: 'a', x: [k, 1.2], r: 0.9 }],
 			truth: [{ id: 'T', x: [k, 1] }]
-		});
-	await client.close();
+		}))
+	);
 });
 
 const concrete = (id: string) =>

@@ -8,11 +8,10 @@ import { eq } from 'drizzle-orm';
 import { afterAll, beforeAll, describe, expect, inject, it } from 'vitest';
 import { verifyPassword } from '$server/auth/password';
 import { db, schema } from '$server/db';
-import { SkeinRigClient } from '$lib/protocol/client';
 import { startApp, type RunningApp } from '../support/app';
 import { Browserish } from '../support/client';
 import { makePerson, uniqueEmail } from '../support/factories';
-import { makeRigWithKey } from '../support/rigs';
+import { streamRun } from '../support/rigs';
 import { waitForMail } from './mail';
 
 let base: string;
@@ -246,16 +245,9 @@ describe('a new password ends the old credentials', () => {
 
 describe('the quarantine needs quarantine:read', () => {
 	it('viewers and triage are refused it; engineers and operators read it', async () => {
-		const rig = await makeRigWithKey('quarantine-access');
-		const client = new SkeinRigClient({
-			url: base.replace('http', 'ws') + '/ingest/v1',
-			key: rig.secret,
-			clientRunId: 'quarantine-access',
-			run: { name: 'quarantine access', state_fields: ['x', 'y'], measurement_fields: ['x', 'y'] }
-		});
-		const { runId } = await client.start();
-		client.send({ t: 1_790_400_000, estimates: [{ id: 'a', x: [1, 2] }] });
-		await client.close();
+		const runId = await streamRun(base, 'quarantine access', [
+			{ t: 1_790_400_000, estimates: [{ id: 'a', x: [1, 2] }] }
+		]);
 		for (const [role, status] of [
 			['viewer', 403],
 			['triage', 403],

@@ -49,6 +49,11 @@ export const guard: Handle = async ({ event, resolve }) => {
 
 	const user = event.locals.user;
 	if (!user) {
+		if (entry?.scraper)
+			return deny(
+				401,
+				'Send Authorization: Bearer <METRICS_TOKEN>, or sign in with a role that may'
+			);
 		if (isApi) return deny(401, 'Sign in or send a personal API token (Authorization: Bearer …)');
 		const next = event.url.pathname + event.url.search;
 		redirect(303, `/sign-in?next=${encodeURIComponent(next)}`);
