@@ -4,6 +4,7 @@
  */
 import http from 'node:http';
 import type { TLSSocket } from 'node:tls';
+import { securityHeaders } from '../src/lib/server/security-headers';
 import { attachSockets } from './attach';
 
 const port = Number(process.env.PORT ?? 3000);
@@ -21,6 +22,7 @@ const { handler } = (await import(new URL('../build/handler.js', import.meta.url
 };
 
 const server = http.createServer((req, res) => {
+	for (const [name, value] of Object.entries(securityHeaders)) res.setHeader(name, value);
 	if (!process.env.ORIGIN && process.env.PROTOCOL_HEADER === protoHeader) {
 		req.headers[protoHeader] = (req.socket as TLSSocket).encrypted ? 'https' : 'http';
 	}

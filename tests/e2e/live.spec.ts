@@ -3,8 +3,8 @@
  * tile, the tile opens the Run screen following live, frames keep arriving on the scene, a step back pauses
  * following, `L` returns to live, and the end of the run is said on the screen.
  */
-import { expect, test, type Page } from '@playwright/test';
-import { viewer, makeRigWithKey, signIn } from './support';
+import type { Page } from '@playwright/test';
+import { viewer, makeRigWithKey, signIn, expect, test } from './support';
 import { runSimulatedRig } from '../../tools/sim/rig';
 import { SkeinRigClient } from '../../src/lib/protocol/client';
 

@@ -3,7 +3,7 @@
  * opened, played, paused, stepped, sought by URL, its layers toggled, an object selected, a moment pinned and
  * reopened by its link. A viewer sees pins but cannot pin.
  */
-import { expect, test, type Page } from '@playwright/test';
+import type { Page } from '@playwright/test';
 import {
 	admin,
 	viewer,
@@ -13,6 +13,8 @@ import {
 	setTheme,
 	signIn,
 	themePalette,
+	expect,
+	test,
 	type ThemeName
 } from './support';
 import { setColors } from '../../src/lib/set-colors';

@@ -1,7 +1,36 @@
 /** Helpers shared by the end-to-end specs. */
-import { expect, type Locator, type Page } from '@playwright/test';
+import { expect, test as base, type Locator, type Page } from '@playwright/test';
 import postgres from 'postgres';
 import { hashSecret, newSecret, secretPrefix } from '../../src/lib/server/auth/tokens';
+
+/**
+ * Playwright's `test`, with every page watched for Content-Security-Policy violations (the browser's
+ * `securitypolicyviolation` events and its console reports): a test fails if the page policy blocked anything.
+ */
+export const test = base.extend<{ cspWatch: void }>({
+	cspWatch: [
+		async ({ page }, use) => {
+			const violations: string[] = [];
+			page.on('console', (m) => {
+				if (/Content Security Policy|Refused to/i.test(m.text())) violations.push(m.text());
+			});
+			await page.exposeFunction('__skeinCspViolation', (v: string) => violations.push(v));
+			await page.addInitScript(() => {
+				document.addEventListener('securitypolicyviolation', (e) => {
+					const report = (window as unknown as { __skeinCspViolation(v: string): void })
+						.__skeinCspViolation;
+					report(
+						`${e.violatedDirective} blocked ${e.blockedURI || 'inline'} (${e.sourceFile}:${e.lineNumber})`
+					);
+				});
+			});
+			await use();
+			expect(violations, 'Content-Security-Policy violations').toEqual([]);
+		},
+		{ auto: true }
+	]
+});
+export { expect };
 
 export const demoPassword = 'skein-demo-admin';
 export const admin = { email: 'admin@skein.test', password: demoPassword };

@@ -326,7 +326,7 @@ describe('operations', () => {
 	it('health and metrics', async () => {
 		const h = await fetch(`${base}/healthz`);
 		expect(await h.json()).toEqual({ status: 'ok', database: 'reachable' });
-		const m = await fetch(`${base}/metrics`);
+		const m = await admin.get('/metrics');
 		expect(m.headers.get('content-type')).toContain('text/plain');
 		expect(await m.text()).toContain('skein_http_request_duration_seconds');
 	});

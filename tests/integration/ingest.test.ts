@@ -16,6 +16,8 @@ import { makeRigWithKey } from '../support/rigs';
 let base: string;
 let wsUrl: string;
 let viewer: Browserish;
+/** the quarantine needs quarantine:read, which viewers lack */
+let engineer: Browserish;
 
 const run = {
 	name: 'junction pass',
@@ -29,6 +31,9 @@ beforeAll(async () => {
 	const p = await makePerson('viewer', 'ingest-reader');
 	viewer = new Browserish(base);
 	await viewer.signIn(p.email, p.password);
+	const e = await makePerson('engineer', 'ingest-quarantine-reader');
+	engineer = new Browserish(base);
+	await engineer.signIn(e.email, e.password);
 });
 
 function frameAt(i: number, t0: number): Omit<Frame, 'seq'> {
@@ -203,7 +208,7 @@ describe('ingest into PostgreSQL', () => {
 		const runId = opened.run_id as string;
 		const back = await stored(runId);
 		expect(back.frames.map((f) => f.seq)).toEqual([0, 2]);
-		const q = (await (await viewer.json(`/api/runs/${runId}/quarantine`, 'GET')).json()) as {
+		const q = (await (await engineer.json(`/api/runs/${runId}/quarantine`, 'GET')).json()) as {
 			quarantine: { seq: number; reason: string; raw_base64: string }[];
 		};
 		expect(q.quarantine).toHaveLength(1);

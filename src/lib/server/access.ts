@@ -12,15 +12,18 @@ export interface RouteRule {
 	read: Rule;
 	/** other methods; a record picks by form action name (`?/name`, "default" without one) */
 	write?: Rule | Record<string, Rule>;
-	/** loopback callers pass without signing in (Prometheus scraping on the same host) */
-	loopback?: boolean;
+	/**
+	 * a scraper (Prometheus) may read without signing in: with `Authorization: Bearer $METRICS_TOKEN`, or from
+	 * a loopback address when METRICS_OPEN=loopback (the address as adapter-node reports it: ADDRESS_HEADER)
+	 */
+	scraper?: boolean;
 }
 
 export const routeRules: Record<string, RouteRule> = {
 	'/': { read: 'signed-in' },
 	'/about': { read: 'public' },
 	'/healthz': { read: 'public' },
-	'/metrics': { read: 'ops:metrics', loopback: true },
+	'/metrics': { read: 'ops:metrics', scraper: true },
 
 	'/(auth)/sign-in': { read: 'public', write: 'public' },
 	'/(auth)/sign-out': { read: 'public', write: 'public' },
@@ -75,7 +78,7 @@ export const routeRules: Record<string, RouteRule> = {
 	'/api/runs': { read: 'runs:read' },
 	'/api/runs/[id=id]': { read: 'runs:read' },
 	'/api/runs/[id=id]/frames': { read: 'runs:read' },
-	'/api/runs/[id=id]/quarantine': { read: 'runs:read' },
+	'/api/runs/[id=id]/quarantine': { read: 'quarantine:read' },
 	'/api/runs/[id=id]/metrics': { read: 'runs:read' },
 	'/api/runs/[id=id]/summary': { read: 'runs:read' },
 	'/api/runs/[id=id]/settings': { read: 'runs:read', write: 'runs:configure' },
@@ -95,9 +98,20 @@ export function ruleFor(
 	if (!entry) return undefined;
 	if (method === 'GET' || method === 'HEAD' || method === 'OPTIONS') return entry.read;
 	const write = entry.write;
-	if (write === undefined) return undefined;
-	if (typeof write === 'string') return write;
-	let actionName = 'default';
-	for (const key of search.keys()) if (key.startsWith('/')) actionName = key.slice(1);
-	return write[actionName];
+	const name = formActionName(search);
+	if (write === undefined || name === null) return undefined;
+	return typeof write === 'string' ? write : write[name];
+}
+
+/**
+ * The form action SvelteKit runs: the first `?/name` parameter, "default" without one. An explicit
+ * `?/default` is refused by SvelteKit, so it gets no rule here (null).
+ */
+export function formActionName(search: URLSearchParams): string | null {
+	for (const key of search.keys()) {
+		if (!key.startsWith('/')) continue;
+		const name = key.slice(1);
+		return name === 'default' ? null : name;
+	}
+	return 'default';
 }

@@ -38,9 +38,26 @@ export function formError(
 	return fail(status, { errors: { [field]: message }, values });
 }
 
-/** Only same-site paths may be redirect targets after sign-in. */
+const nextFallback = '/runs';
+const probeOrigin = 'http://skein.invalid';
+
+/**
+ * Only a path of this site may be a redirect target after sign-in. Browsers drop tabs and newlines from a URL,
+ * read `\` as `/`, and take `//host` or `/\host` for another host, so anything with a control character or a
+ * backslash is refused outright, and what is left must resolve to this origin (WHATWG URL parsing, as
+ * browsers do). The answer is the resolved path, never the raw input.
+ */
 export function safeNext(next: string | null): string {
-	if (!next || !next.startsWith('/') || next.startsWith('//') || next.startsWith('/\\'))
-		return '/runs';
-	return next;
+	if (!next || next.length > 2048 || !next.startsWith('/') || next.startsWith('//'))
+		return nextFallback;
+	if (/[\u0000-\u001f\u007f\\]/.test(next)) return nextFallback;
+	let url: URL;
+	try {
+		url = new URL(next, probeOrigin);
+	} catch {
+		return nextFallback;
+	}
+	if (url.origin !== probeOrigin) return nextFallback;
+	const path = url.pathname + url.search + url.hash;
+	return path.startsWith('//') ? nextFallback : path;
 }

@@ -1,7 +1,11 @@
 import { z } from 'zod';
+import { intParam } from './query-fields';
 
-/** Query of GET /api/audit: the newest entries first, `before` an entry id to page back from. */
+/** /api/audit and the audit log page: newest first, `before` an entry id to page back. */
 export const auditQuery = z.object({
-	limit: z.coerce.number().int().min(1).max(1000).default(100),
-	before: z.coerce.number().int().positive().optional()
+	limit: intParam('limit', 1, 1000).default(100),
+	before: intParam('before', 1).optional()
 });
+
+/** The audit log page shows a fixed 200 entries; it pages back with `before` alone. */
+export const auditPageQuery = auditQuery.omit({ limit: true });

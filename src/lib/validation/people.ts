@@ -48,7 +48,12 @@ export const changePasswordSchema = z
 	.object({
 		current: z.string().min(1, 'Enter your current password'),
 		password: passwordField,
-		confirm: z.string()
+		confirm: z.string(),
+		/** a checkbox: "on" when ticked, absent when not */
+		revokeTokens: z
+			.literal('on', { error: 'revokeTokens is a checkbox' })
+			.optional()
+			.transform((v) => v === 'on')
 	})
 	.refine((v) => v.password === v.confirm, {
 		path: ['confirm'],

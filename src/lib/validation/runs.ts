@@ -1,13 +1,6 @@
 import { z } from 'zod';
 import { COORDS, RUN_STATUSES } from '$lib/runs';
-
-const seq = z.coerce
-	.number({ error: 'must be a number' })
-	.int('must be an integer')
-	.min(0, 'must be ≥ 0');
-const time = z.coerce
-	.number({ error: 'must be a number' })
-	.refine(Number.isFinite, 'must be finite');
+import { dayParam, intParam, secondsParam, seqParam, textParam } from './query-fields';
 
 export const runListQuery = z.object({
 	rig: z.uuid({ error: 'rig must be a rig id' }).optional(),
@@ -16,22 +9,17 @@ export const runListQuery = z.object({
 			error: 'status must be live, ended, interrupted or imported'
 		})
 		.optional(),
-	limit: z.coerce.number().int().min(1).max(500).default(50),
-	offset: z.coerce.number().int().min(0).default(0)
+	limit: intParam('limit', 1, 500).default(50),
+	offset: intParam('offset', 0).default(0)
 });
 
 export const frameQuery = z
 	.object({
-		from_seq: seq.optional(),
-		to_seq: seq.optional(),
-		from: time.optional(),
-		to: time.optional(),
-		limit: z.coerce
-			.number()
-			.int()
-			.min(1, 'limit must be 1..5000')
-			.max(5000, 'limit must be 1..5000')
-			.default(500)
+		from_seq: seqParam('from_seq').optional(),
+		to_seq: seqParam('to_seq').optional(),
+		from: secondsParam('from').optional(),
+		to: secondsParam('to').optional(),
+		limit: intParam('limit', 1, 5000).default(500)
 	})
 	.refine((q) => q.from_seq === undefined || q.to_seq === undefined || q.from_seq <= q.to_seq, {
 		path: ['to_seq'],
@@ -43,23 +31,21 @@ export const frameQuery = z
 	});
 
 export const pageQuery = z.object({
-	limit: z.coerce.number().int().min(1).max(1000).default(100),
-	offset: z.coerce.number().int().min(0).default(0)
+	limit: intParam('limit', 1, 1000).default(100),
+	offset: intParam('offset', 0).default(0)
 });
 
 // ── Runs table: filters and sort (added to runListQuery through runSearchQuery) ──
 export const runSortKeys = ['started', 'name', 'rig', 'duration', 'frames', 'gospa'] as const;
 export type RunSortKey = (typeof runSortKeys)[number];
 
-const day = z.iso.date({ error: 'must be a date (YYYY-MM-DD)' });
-
 /** runListQuery plus the Runs table's filters; every old query string still parses the same. */
 export const runSearchQuery = runListQuery
 	.extend({
-		tag: z.string().trim().min(1).max(64).optional(),
-		q: z.string().trim().max(200).optional(),
-		since: day.optional(),
-		until: day.optional(),
+		tag: textParam('tag', 64).min(1, 'tag must not be empty').optional(),
+		q: textParam('q', 200).optional(),
+		since: dayParam('since').optional(),
+		until: dayParam('until').optional(),
 		sort: z
 			.enum(runSortKeys, { error: `sort must be one of ${runSortKeys.join(', ')}` })
 			.default('started'),
@@ -75,14 +61,9 @@ export type RunSearch = z.infer<typeof runSearchQuery>;
 export const seriesQuery = z
 	.object({
 		/** seconds from the run's first frame */
-		from: time.optional(),
-		to: time.optional(),
-		buckets: z.coerce
-			.number()
-			.int('buckets must be an integer')
-			.min(1, 'buckets must be 1..4000')
-			.max(4000, 'buckets must be 1..4000')
-			.default(600)
+		from: secondsParam('from').optional(),
+		to: secondsParam('to').optional(),
+		buckets: intParam('buckets', 1, 4000).default(600)
 	})
 	.refine((q) => q.from === undefined || q.to === undefined || q.from < q.to, {
 		path: ['to'],
@@ -138,6 +119,6 @@ export const newPinSchema = z.object({
 export type NewPin = z.infer<typeof newPinSchema>;
 
 export const pinListQuery = z.object({
-	limit: z.coerce.number().int().min(1).max(500).default(100),
-	offset: z.coerce.number().int().min(0).default(0)
+	limit: intParam('limit', 1, 500).default(100),
+	offset: intParam('offset', 0).default(0)
 });

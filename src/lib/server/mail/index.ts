@@ -73,3 +73,19 @@ export async function sendMail(mail: OutgoingMail): Promise<void> {
 		throw err;
 	}
 }
+
+/**
+ * The origin links in mail point at: ORIGIN, or without it the app's own address (http://HOST:PORT, with
+ * `localhost` for a wildcard HOST). Never the request's Host header, which whoever asks for a reset chooses.
+ */
+export function publicOrigin(): string {
+	if (process.env.ORIGIN) return new URL(process.env.ORIGIN).origin;
+	const host = process.env.HOST ?? '127.0.0.1';
+	const name = host === '' || host === '0.0.0.0' || host === '::' ? 'localhost' : host;
+	const bracketed = name.includes(':') ? `[${name}]` : name;
+	return `http://${bracketed}:${process.env.PORT ?? 3000}`;
+}
+
+export function publicUrl(path: string): string {
+	return new URL(path, publicOrigin()).toString();
+}

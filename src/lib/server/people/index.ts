@@ -5,18 +5,12 @@ import { hashPassword } from '$server/auth/password';
 import { hashSecret, newId, newSecret, secretPrefix } from '$server/auth/tokens';
 import { invalidateUserSessions } from '$server/auth/sessions';
 import { audit, type Actor } from '$server/auth/audit';
+import { PeopleError } from './errors';
+
+export { PeopleError } from './errors';
+export * from './passwords';
 
 const u = schema.users;
-
-export class PeopleError extends Error {
-	constructor(
-		public code: 'conflict' | 'not_found' | 'invalid' | 'forbidden',
-		message: string,
-		public field?: string
-	) {
-		super(message);
-	}
-}
 
 export async function findUserByEmail(email: string) {
 	const [row] = await db()
@@ -106,13 +100,6 @@ export async function setActive(actor: Actor, userId: string, active: boolean) {
 			.where(and(eq(schema.apiTokens.userId, userId), isNull(schema.apiTokens.revokedAt)));
 	}
 	await audit(actor, active ? 'person.reactivate' : 'person.deactivate', target.email);
-}
-
-export async function setPassword(userId: string, password: string) {
-	await db()
-		.update(u)
-		.set({ passwordHash: await hashPassword(password) })
-		.where(eq(u.id, userId));
 }
 
 // ---- invites ----
@@ -228,62 +215,6 @@ export async function acceptInvite(
 		});
 		return user;
 	});
-}
-
-// ---- password resets ----
-
-export const resetLifetimeMs = 60 * 60_000;
-
-export async function createPasswordReset(email: string) {
-	const user = await findUserByEmail(email);
-	if (!user || !user.active) return null;
-	const token = newSecret('skr');
-	await db()
-		.insert(schema.passwordResets)
-		.values({
-			tokenHash: hashSecret(token),
-			userId: user.id,
-			expiresAt: new Date(Date.now() + resetLifetimeMs)
-		});
-	return { user, token };
-}
-
-export async function findOpenReset(token: string) {
-	const r = schema.passwordResets;
-	const [row] = await db()
-		.select()
-		.from(r)
-		.where(and(eq(r.tokenHash, hashSecret(token)), isNull(r.usedAt), gt(r.expiresAt, new Date())));
-	return row ?? null;
-}
-
-export async function completePasswordReset(token: string, password: string, ip: string | null) {
-	const passwordHash = await hashPassword(password);
-	const r = schema.passwordResets;
-	const userId = await db().transaction(async (tx) => {
-		const [reset] = await tx
-			.update(r)
-			.set({ usedAt: new Date() })
-			.where(and(eq(r.tokenHash, hashSecret(token)), isNull(r.usedAt), gt(r.expiresAt, new Date())))
-			.returning();
-		if (!reset)
-			throw new PeopleError('invalid', 'This reset link is not valid: it was used or has expired');
-		const [user] = await tx
-			.update(u)
-			.set({ passwordHash })
-			.where(eq(u.id, reset.userId))
-			.returning();
-		await tx.insert(schema.auditLog).values({
-			actorId: user.id,
-			actorLabel: user.email,
-			action: 'password.reset',
-			target: user.email,
-			ip
-		});
-		return user.id;
-	});
-	await invalidateUserSessions(userId);
-	return userId;
 }
 
 // ---- personal API tokens ----

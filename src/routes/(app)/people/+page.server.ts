@@ -3,7 +3,7 @@ import { can } from '$lib/permissions';
 import { inviteSchema, setRoleSchema } from '$lib/validation/people';
 import { actorOf } from '$server/api';
 import { formError, parseForm } from '$server/forms';
-import { sendMail } from '$server/mail';
+import { publicUrl, sendMail } from '$server/mail';
 import { inviteMail } from '$server/mail/templates';
 import {
 	createInvite,
@@ -39,13 +39,13 @@ function domainFailure(err: unknown) {
 }
 
 export const actions = {
-	invite: async ({ request, locals, url, getClientAddress }) => {
+	invite: async ({ request, locals, getClientAddress }) => {
 		const parsed = await parseForm(request, inviteSchema);
 		if (!parsed.ok) return parsed.failure;
 		const actor = actorOf(locals, getClientAddress());
 		try {
 			const invite = await createInvite(actor, parsed.data.email, parsed.data.role);
-			const link = new URL(`/invite/${invite.token}`, url.origin).toString();
+			const link = publicUrl(`/invite/${invite.token}`);
 			await sendMail({
 				to: parsed.data.email,
 				kind: 'invite',

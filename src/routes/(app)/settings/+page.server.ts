@@ -4,10 +4,16 @@ import { changePasswordSchema, nameField, tokenNameSchema } from '$lib/validatio
 import { actorOf } from '$server/api';
 import { audit } from '$server/auth/audit';
 import { verifyPassword } from '$server/auth/password';
-import { invalidateUserSessions, createSession, sessionCookie } from '$server/auth/sessions';
+import { createSession, sessionCookie } from '$server/auth/sessions';
+import {
+	checkSignInThrottle,
+	clearSignInFailures,
+	recordSignInFailure
+} from '$server/auth/throttle';
 import { formError, parseForm } from '$server/forms';
 import { themes } from '$server/hooks/theme';
 import {
+	changePassword,
 	createApiToken,
 	getUser,
 	listApiTokens,
@@ -15,8 +21,7 @@ import {
 	PeopleError,
 	revokeApiToken,
 	revokeSession,
-	setName,
-	setPassword
+	setName
 } from '$server/people';
 import type { Actions, PageServerLoad } from './$types';
 
@@ -64,21 +69,34 @@ export const actions = {
 		const parsed = await parseForm(request, changePasswordSchema);
 		if (!parsed.ok) return parsed.failure;
 		const user = await getUser(locals.user!.id);
-		if (!user || !(await verifyPassword(user.passwordHash, parsed.data.current))) {
+		if (!user) return formError(404, 'No such person');
+		const ip = getClientAddress();
+		// the same throttle as sign-in, on the same counters: a stolen session cannot guess the password here
+		const verdict = await checkSignInThrottle(user.email, ip);
+		if (!verdict.allowed) {
+			await audit(actorOf(locals, ip), 'password.change_throttled', user.email);
+			return formError(429, verdict.message, 'current');
+		}
+		if (!(await verifyPassword(user.passwordHash, parsed.data.current))) {
+			await recordSignInFailure(user.email, ip);
+			await audit(actorOf(locals, ip), 'password.change_failed', user.email);
 			return formError(400, 'Your current password is not right', 'current');
 		}
-		await setPassword(user.id, parsed.data.password);
-		// a new password ends every other session; this browser gets a fresh one
-		await invalidateUserSessions(user.id);
-		const ip = getClientAddress();
+		await clearSignInFailures(user.email);
+		const ended = await changePassword(
+			actorOf(locals, ip),
+			user.id,
+			parsed.data.password,
+			parsed.data.revokeTokens
+		);
+		// every session of the account ended with the change; this browser gets a fresh one
 		const session = await createSession(user.id, {
 			ip,
 			userAgent: request.headers.get('user-agent')
 		});
 		const c = sessionCookie(session.id, url.protocol === 'https:');
 		cookies.set(c.name, c.value, c.attributes);
-		await audit(actorOf(locals, ip), 'password.change', user.email);
-		return { saved: 'password' };
+		return { saved: 'password', tokensRevoked: ended.tokens };
 	},
 	revokeSession: async ({ request, locals, getClientAddress }) => {
 		const parsed = await parseForm(

@@ -1,19 +1,19 @@
 import { resetRequestSchema } from '$lib/validation/people';
 import { audit } from '$server/auth/audit';
 import { parseForm } from '$server/forms';
-import { sendMail } from '$server/mail';
+import { publicUrl, sendMail } from '$server/mail';
 import { resetMail } from '$server/mail/templates';
 import { createPasswordReset } from '$server/people';
 import type { Actions } from './$types';
 
 export const actions = {
-	default: async ({ request, url, getClientAddress }) => {
+	default: async ({ request, getClientAddress }) => {
 		const parsed = await parseForm(request, resetRequestSchema);
 		if (!parsed.ok) return parsed.failure;
 		const ip = getClientAddress();
 		const reset = await createPasswordReset(parsed.data.email);
 		if (reset) {
-			const mail = resetMail(new URL(`/reset/${reset.token}`, url.origin).toString());
+			const mail = resetMail(publicUrl(`/reset/${reset.token}`));
 			await sendMail({ to: reset.user.email, kind: 'password-reset', ...mail });
 			await audit(
 				{ id: reset.user.id, label: reset.user.email, ip },

@@ -1,7 +1,7 @@
 import { json } from '@sveltejs/kit';
 import { inviteSchema } from '$lib/validation/people';
 import { actorOf, endpoint, readJson } from '$server/api';
-import { sendMail } from '$server/mail';
+import { publicUrl, sendMail } from '$server/mail';
 import { inviteMail } from '$server/mail/templates';
 import { createInvite, listPeople } from '$server/people';
 import type { RequestHandler } from './$types';
@@ -9,10 +9,10 @@ import type { RequestHandler } from './$types';
 export const GET: RequestHandler = endpoint(async () => json({ people: await listPeople() }));
 
 /** Invites a person by e-mail with a role. */
-export const POST: RequestHandler = endpoint(async ({ request, locals, url, getClientAddress }) => {
+export const POST: RequestHandler = endpoint(async ({ request, locals, getClientAddress }) => {
 	const input = await readJson(request, inviteSchema);
 	const invite = await createInvite(actorOf(locals, getClientAddress()), input.email, input.role);
-	const link = new URL(`/invite/${invite.token}`, url.origin).toString();
+	const link = publicUrl(`/invite/${invite.token}`);
 	await sendMail({
 		to: input.email,
 		kind: 'invite',

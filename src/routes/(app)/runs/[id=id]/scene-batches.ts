@@ -39,11 +39,11 @@ in vec4 aColor;
 in vec2 aShape;
 out vec4 vColor;
 out vec2 vShape;
-uniform highp float uResolution;
+uniform highp float uPixelRatio;
 ${HEAD}
 void main() {
 	gl_Position = place(aPosition);
-	gl_PointSize = aShape.y * uResolution;
+	gl_PointSize = aShape.y * uPixelRatio;
 	vColor = aColor;
 	vShape = aShape;
 }`;
@@ -51,7 +51,7 @@ void main() {
 const markerFragment = `in vec4 vColor;
 in vec2 vShape;
 out vec4 finalColor;
-uniform highp float uResolution;
+uniform highp float uPixelRatio;
 float box(vec2 p, vec2 b) {
 	vec2 d = abs(p) - b;
 	return length(max(d, 0.0)) + min(max(d.x, d.y), 0.0);
@@ -67,12 +67,12 @@ void main() {
 	else {
 		// most of the sprite lies off the ring: leave before the arc tangent
 		float off = abs(length(p) - 10.0) - 0.75;
-		if (off * uResolution > 0.5) discard;
+		if (off * uPixelRatio > 0.5) discard;
 		float seg = 6.2831853 * 10.0 / 12.0;
 		float t = fract(atan(p.y, p.x) / 6.2831853 * 12.0) * seg;
 		d = max(off, max(-t, t - 0.55 * seg));
 	}
-	float a = clamp(0.5 - d * uResolution, 0.0, 1.0) * vColor.a;
+	float a = clamp(0.5 - d * uPixelRatio, 0.0, 1.0) * vColor.a;
 	if (a <= 0.0) discard;
 	finalColor = vec4(vColor.rgb * a, a);
 }`;
@@ -209,12 +209,13 @@ export class LineBatch extends Batch {
 export class MarkerBatch extends Batch {
 	#uniforms: UniformGroup;
 	constructor(pixi: Pixi, resolution: number) {
-		const uniforms = new pixi.UniformGroup({ uResolution: { value: resolution, type: 'f32' } });
+		// not `uResolution`: pixi's global uniforms have a vec2 of that name, which it would sync into this float
+		const uniforms = new pixi.UniformGroup({ uPixelRatio: { value: resolution, type: 'f32' } });
 		super(pixi, 'point-list', markerVertex, markerFragment, uniforms);
 		this.#uniforms = uniforms;
 	}
 	set resolution(r: number) {
-		this.#uniforms.uniforms.uResolution = r;
+		this.#uniforms.uniforms.uPixelRatio = r;
 	}
 	mark(shape: (typeof Shape)[keyof typeof Shape], x: number, y: number, color: number) {
 		this.vertex(x, y, color, shape, SIDE[shape]);

@@ -196,7 +196,8 @@ export class SceneManager {
 	}
 
 	static async create(host: HTMLElement, geo: RunGeometry): Promise<SceneManager> {
-		const pixi = await import('pixi.js');
+		// the page's Content-Security-Policy forbids eval: pixi then needs its eval-free shader and uniform code
+		const [pixi] = await Promise.all([import('pixi.js'), import('pixi.js/unsafe-eval')]);
 		const app = new pixi.Application();
 		// multisampling costs software WebGL (SwiftShader, llvmpipe: VMs and remote desktops) half its frame rate;
 		// markers are smoothed by their shader anyway, only thin lines lose their antialiasing there

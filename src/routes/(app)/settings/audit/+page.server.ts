@@ -1,11 +1,11 @@
+import { error } from '@sveltejs/kit';
+import { auditPageQuery } from '$lib/validation/audit';
 import { readAudit } from '$server/audit-read';
+import { checkQuery } from '$server/query';
 import type { PageServerLoad } from './$types';
 
 export const load = (async ({ url }) => {
-	const before = Number(url.searchParams.get('before'));
-	const entries = await readAudit(
-		200,
-		Number.isSafeInteger(before) && before > 0 ? before : undefined
-	);
-	return { entries };
+	const q = checkQuery(url, auditPageQuery);
+	if (!q.ok) error(400, q.message);
+	return { entries: await readAudit(200, q.data.before) };
 }) satisfies PageServerLoad;
