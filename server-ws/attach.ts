@@ -1,11 +1,18 @@
 import type { Server } from 'node:http';
-import { sqlClient } from '../src/lib/server/db';
+import { databaseUrl, pingDatabase, sqlClient } from '../src/lib/server/db';
+import { registerProbe } from '../src/lib/server/health';
 import { PostgresIngestStore } from '../src/lib/server/ingest/store';
 import { applyRetention, createPartitionsAhead } from '../src/lib/server/ingest/partitions';
 import { logger } from '../src/lib/server/log';
 import { startMetricJobs, stopMetricJobs } from '../src/lib/server/metrics/jobs';
-import { keyExpiryChannel, keyRevokedChannel } from '../src/lib/server/rigs';
-import { closeSocketsForKey, createIngestEndpoint, setKeyExpiry } from './ingest/endpoint';
+import { feedKeyStates, keyExpiryChannel, keyRevokedChannel } from '../src/lib/server/rigs';
+import {
+	closeSocketsForKey,
+	createIngestEndpoint,
+	keyIdsInUse,
+	setKeyExpiry
+} from './ingest/endpoint';
+import { KeyWatch } from './ingest/key-watch';
 import { postgresLiveDirectory } from './live/directory';
 import { createLiveEndpoint } from './live/endpoint';
 
@@ -42,17 +49,29 @@ export function attachSockets(server: Server): AttachedSockets {
 			socket.destroy();
 	});
 
-	const listening = sql.listen(keyRevokedChannel, (keyId) => {
-		const n = closeSocketsForKey(keyId);
-		if (n) logger.info({ keyId, closed: n }, 'feed key revoked: sockets closed');
+	const keys = new KeyWatch({
+		url: databaseUrl(),
+		revokedChannel: keyRevokedChannel,
+		expiryChannel: keyExpiryChannel,
+		recheckMs: Number(process.env.FEED_KEY_RECHECK_SECONDS ?? 5) * 1000,
+		keysInUse: keyIdsInUse,
+		readStates: feedKeyStates,
+		stop: (keyId) => closeSocketsForKey(keyId),
+		expire: setKeyExpiry,
+		log: (level, msg, details) => logger[level](details ?? {}, msg)
 	});
-	const listeningExpiry = sql.listen(keyExpiryChannel, (payload) => {
-		const [keyId, at] = payload.split(' ');
-		const expiresAt = Number(at);
-		if (!keyId || !Number.isFinite(expiresAt)) return;
-		const n = setKeyExpiry(keyId, expiresAt);
-		if (n) logger.info({ keyId, connections: n, expiresAt }, 'feed key expiry set on open sockets');
-	});
+
+	// what the upgrades of this process wait on: its own pools (key checks, sessions, storage)
+	const probes = [
+		registerProbe('ingest', async () => {
+			await pingDatabase();
+			return keys.listening ? null : 'feed key revocations are not being received (reconnecting)';
+		}),
+		registerProbe('live', async () => {
+			await pingDatabase();
+			return null;
+		})
+	];
 
 	const graceMs = Number(process.env.INGEST_GRACE_SECONDS ?? 30) * 1000;
 	// runs left live by a previous process (crash, restart) become interrupted once their grace has passed
@@ -88,9 +107,9 @@ export function attachSockets(server: Server): AttachedSockets {
 			for (const t of timers) clearTimeout(t);
 			await live.close();
 			await ingest.close();
+			for (const remove of probes) remove();
 			await stopMetricJobs();
-			await (await listening).unlisten();
-			await (await listeningExpiry).unlisten();
+			await keys.close();
 		}
 	};
 }
