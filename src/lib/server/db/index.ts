@@ -7,7 +7,7 @@ import { frames } from './frames';
 export type Schema = typeof schema & { frames: typeof frames };
 export type Database = PostgresJsDatabase<Schema>;
 
-function databaseUrl(): string {
+export function databaseUrl(): string {
 	const url = process.env.DATABASE_URL;
 	if (!url) throw new Error('DATABASE_URL is not set (npm start and npm test set it for you)');
 	return url;
@@ -74,6 +74,13 @@ export function db(): Database {
 	drizzleClient ??= connect();
 	database ??= drizzle(drizzleClient, { schema: { ...schema, frames } });
 	return database;
+}
+
+/** Both pools of this module answer `select 1` (throws otherwise); for /healthz. */
+export async function pingDatabase(): Promise<void> {
+	db();
+	const pools = [sqlClient(), drizzleClient].filter((c): c is postgres.Sql => c !== undefined);
+	await Promise.all(pools.map((c) => c`select 1`));
 }
 
 export async function closeDb(): Promise<void> {
