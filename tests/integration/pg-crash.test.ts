@@ -236,6 +236,18 @@ describe('PostgreSQL restarts and crashes', () => {
 		}
 		console.log('recovery after PostgreSQL came back (ms):', JSON.stringify(figures));
 
+		// the safety net: a key stopped without any notification (as if it were lost) is found by the re-check
+		const silent = await makeRigWithKey('fault-silent');
+		const quiet = new StreamingRig(silent.secret, 'silent');
+		await quiet.client.start();
+		const silentAt = Date.now();
+		await sqlClient()`update feed_keys set revoked_at = now() where id = ${silent.keyId}`;
+		await until(async () => quiet.revokedAt !== null, silentAt, 10_000);
+		quiet.stopSending();
+		const recheck = quiet.revokedAt! - silentAt;
+		console.log(`key stopped without a notification: sockets closed after ${recheck} ms`);
+		expect(recheck).toBeLessThanOrEqual(5000 + 1000);
+
 		// viewers connected through it all are still there, and a new one follows a run again
 		for (const v of viewers) expect(v.readyState).toBe(WebSocket.OPEN);
 		for (const v of viewers) v.close();
