@@ -86,24 +86,29 @@ export function attachSockets(server: Server): AttachedSockets {
 		const days = Number(process.env.RETENTION_DAYS ?? 0);
 		if (days > 0) await applyRetention(sql, days);
 	};
-	const timers = [
-		setTimeout(
-			() => void sweep().catch((err) => logger.error({ err }, 'run sweep failed')),
-			graceMs + 1000
-		),
+	// the database may be down when these first run (the process started before it): each is tried again
+	// every 5 s until it has worked once
+	let closing = false;
+	const timers: ReturnType<typeof setTimeout>[] = [];
+	const once = (what: string, task: () => Promise<void>) => {
+		void task().catch((err: unknown) => {
+			logger.error({ err }, `${what} failed; trying again in 5 s`);
+			if (!closing) timers.push(setTimeout(() => once(what, task), 5000).unref());
+		});
+	};
+	timers.push(
+		setTimeout(() => once('run sweep', sweep), graceMs + 1000).unref(),
 		setInterval(
 			() => void maintain().catch((err) => logger.error({ err }, 'maintenance failed')),
 			hourMs
-		)
-	];
-	for (const t of timers) t.unref();
-	void maintain().catch((err) => logger.error({ err }, 'maintenance failed'));
-	void startMetricJobs(process.env.DATABASE_URL).catch((err) =>
-		logger.error({ err }, 'metric jobs failed to start')
+		).unref()
 	);
+	once('maintenance', maintain);
+	once('starting the metric jobs', () => startMetricJobs(process.env.DATABASE_URL));
 
 	return {
 		async close() {
+			closing = true;
 			for (const t of timers) clearTimeout(t);
 			await live.close();
 			await ingest.close();

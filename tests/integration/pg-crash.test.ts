@@ -265,4 +265,43 @@ describe('PostgreSQL restarts and crashes', () => {
 		expect(app.child.exitCode).toBeNull();
 		expect(app.output()).not.toContain("reading 'write'");
 	}, 240_000);
+
+	it('an app started while PostgreSQL is down comes up by itself, its metric jobs too', async () => {
+		await app.stop(); // its metric jobs would take the recompute below
+		stopCluster(faultCluster, 'immediate');
+		const starting = startApp({ DATABASE_URL: url });
+		await sleep(3000);
+		startCluster(faultCluster);
+		const late = await starting;
+		try {
+			const rig = await makeRigWithKey('fault-late');
+			const client = new SkeinRigClient({
+				url: late.url.replace('http', 'ws') + '/ingest/v1',
+				key: rig.secret,
+				clientRunId: 'late',
+				run
+			});
+			const { runId } = await client.start();
+			for (let i = 0; i < 20; i++) client.send(frame(i));
+			expect((await client.close()).frames).toBe(20);
+
+			// the recompute after a settings change runs in the metric jobs, which could not start at first
+			const person = await makePerson('engineer', 'fault-late');
+			const engineer = new Browserish(late.url);
+			await engineer.signIn(person.email, person.password);
+			const settings = { c: 3, p: 2, distance: 'position', zones: [], motThreshold: 2 };
+			expect((await engineer.json(`/api/runs/${runId}/settings`, 'PUT', settings)).status).toBe(
+				200
+			);
+			let state = 'queued';
+			await until(async () => {
+				const res = await engineer.json(`/api/runs/${runId}/settings`, 'GET');
+				state = ((await res.json()) as { recompute: { state: string } }).recompute.state;
+				return state === 'done' || state === 'failed';
+			}, Date.now());
+			expect(state).toBe('done');
+		} finally {
+			await late.stop();
+		}
+	}, 120_000);
 });
