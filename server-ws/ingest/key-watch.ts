@@ -5,8 +5,15 @@
  * a lost notification would have said.
  */
 import postgres from 'postgres';
-import { reconnectDelay } from '../../src/lib/server/db';
 import type { FeedKeyState } from '../../src/lib/server/rigs';
+
+/**
+ * Seconds between attempts to listen again: short, so the LISTEN is back within a fraction of a second of
+ * PostgreSQL's return (a revocation in between is found by the re-check that follows); one connection only.
+ */
+function retryDelay(failures: number): number {
+	return Math.min(0.025 * 2 ** failures, 0.25) * (0.5 + Math.random() / 2);
+}
 
 export interface KeyWatchOptions {
 	url: string;
@@ -47,7 +54,7 @@ export class KeyWatch {
 				max_lifetime: null,
 				fetch_types: false,
 				connect_timeout: 5,
-				backoff: reconnectDelay,
+				backoff: retryDelay,
 				onnotice: () => {},
 				onclose: () => this.#lost()
 			},
@@ -134,7 +141,7 @@ export class KeyWatch {
 				try {
 					await this.#sql.unsafe(statement);
 				} catch {
-					await new Promise((r) => setTimeout(r, reconnectDelay(attempt) * 1000));
+					await new Promise((r) => setTimeout(r, retryDelay(attempt) * 1000));
 					continue;
 				}
 				if (losses !== this.#losses) continue;

@@ -113,7 +113,7 @@ class StreamingRig {
 	sent = 0;
 	revokedAt: number | null = null;
 	#timer: ReturnType<typeof setInterval>;
-	constructor(secret: string, name: string) {
+	constructor(secret: string, name: string, sending = true) {
 		this.client = new SkeinRigClient({
 			url: app.url.replace('http', 'ws') + '/ingest/v1',
 			key: secret,
@@ -125,7 +125,7 @@ class StreamingRig {
 			if (e.type === 'fatal') this.revokedAt = Date.now();
 		});
 		this.#timer = setInterval(() => {
-			if (this.revokedAt === null) this.client.send(frame(this.sent++));
+			if (sending && this.revokedAt === null) this.client.send(frame(this.sent++));
 		}, 20);
 	}
 	stopSending() {
@@ -181,6 +181,10 @@ describe('PostgreSQL restarts and crashes', () => {
 			const doomed = await makeRigWithKey(`fault-revoked-${mode}`);
 			const victim = new StreamingRig(doomed.secret, `revoked-${figures.length}`);
 			await victim.client.start();
+			// and one that sends nothing, so its socket stays open through the fault, revoked right as it ends
+			const sleeper = await makeRigWithKey(`fault-idle-${mode}`);
+			const idle = new StreamingRig(sleeper.secret, `idle-${figures.length}`, false);
+			await idle.client.start();
 			await sleep(500);
 
 			// rigs retrying upgrades while the database is down: what wedged every later upgrade
@@ -206,6 +210,12 @@ describe('PostgreSQL restarts and crashes', () => {
 			const upAt = Date.now();
 			down = false;
 			await retries;
+			// revoked as soon as the database takes it, maybe before this process listens again
+			await revokeFeedKey(systemActor, sleeper.keyId);
+			const idleRevokedAt = Date.now();
+			await until(async () => idle.revokedAt !== null, idleRevokedAt, 10_000);
+			const atReturn = Math.max(0, idle.revokedAt! - idleRevokedAt);
+			expect(idle.client.stats.reconnects).toBe(0);
 
 			const ingestBack = await until(
 				async () => (await upgrade('/ingest/v1', ingestHeaders)) === 'open',
@@ -230,8 +240,9 @@ describe('PostgreSQL restarts and crashes', () => {
 			await until(async () => victim.revokedAt !== null, revokeAt, 10_000);
 			victim.stopSending();
 			const revocation = victim.revokedAt! - revokeAt;
-			figures.push({ mode, noticed, ingestBack, liveBack, healthyBack, revocation });
+			figures.push({ mode, noticed, ingestBack, liveBack, healthyBack, revocation, atReturn });
 			expect(revocation).toBeLessThanOrEqual(1000);
+			expect(atReturn).toBeLessThanOrEqual(1000);
 			expect(app.child.exitCode).toBeNull();
 		}
 		console.log('recovery after PostgreSQL came back (ms):', JSON.stringify(figures));
