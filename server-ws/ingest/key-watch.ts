@@ -5,6 +5,7 @@
  * a lost notification would have said.
  */
 import postgres from 'postgres';
+import { withDeadline } from '../../src/lib/server/deadline';
 import type { FeedKeyState } from '../../src/lib/server/rigs';
 
 /**
@@ -78,7 +79,8 @@ export class KeyWatch {
 		if (ids.length === 0) return;
 		this.#rechecking = true;
 		try {
-			const states = await this.#o.readStates(ids);
+			// a read that never answers must not stop the re-checks that follow
+			const states = await withDeadline(this.#o.readStates(ids), 10_000, 'reading feed keys');
 			for (const [keyId, state] of states) {
 				if (state.stopped !== null) {
 					const n = this.#o.stop(keyId, state.stopped);

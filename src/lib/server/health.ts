@@ -3,8 +3,9 @@
  * (server-ws) is loaded apart from the SvelteKit build, with its own database pools, so the probes live on
  * globalThis, where the route of the build finds those of server-ws.
  */
+import { withDeadline } from './deadline';
 
-/** A part's state: `problem` says what does not work, in one line; null when it works. */
+/** A part's check: null when the part works, else one line saying what does not. */
 export type Probe = () => Promise<string | null>;
 
 const PROBES = Symbol.for('skein.health.probes');
@@ -25,22 +26,10 @@ export function registerProbe(name: string, probe: Probe): () => void {
 /** A probe that has not answered within this counts as failing: a wedged pool must not wedge /healthz. */
 const PROBE_DEADLINE_MS = 2000;
 
-async function run(probe: Probe): Promise<string | null> {
-	let timer: ReturnType<typeof setTimeout> | undefined;
-	const deadline = new Promise<string>((resolve) => {
-		timer = setTimeout(
-			() => resolve(`no answer within ${PROBE_DEADLINE_MS} ms`),
-			PROBE_DEADLINE_MS
-		);
-	});
-	try {
-		return await Promise.race([
-			probe().catch((err: unknown) => (err instanceof Error ? err.message : String(err))),
-			deadline
-		]);
-	} finally {
-		clearTimeout(timer);
-	}
+function run(probe: Probe): Promise<string | null> {
+	return withDeadline(probe(), PROBE_DEADLINE_MS, 'check').catch((err: unknown) =>
+		err instanceof Error ? err.message : String(err)
+	);
 }
 
 /** Runs every probe, `extra` ones first; each part is null (works) or what does not work. */
