@@ -41,7 +41,7 @@ function tcpNoDelay(options: { host: string[]; port: number[] }): Socket {
  * up to 20 s over the failures of the whole pool, so rigs retrying while PostgreSQL is down push the pool's
  * next try far past PostgreSQL's return. Capped at 1 s here, with jitter.
  */
-export function reconnectDelay(failures: number): number {
+function reconnectDelay(failures: number): number {
 	return Math.min(0.05 * 2 ** failures, 1) * (0.5 + Math.random() / 2);
 }
 
