@@ -41,6 +41,7 @@ export class KeyWatch {
 	#losses = 0;
 	#relisten: Promise<void> | null = null;
 	#rechecking = false;
+	#recheckAgain = false;
 	#recheckFailing = false;
 	#timer: ReturnType<typeof setInterval>;
 	#closed = false;
@@ -74,7 +75,12 @@ export class KeyWatch {
 
 	/** Reads every key in use and closes the connections of those that stopped working. */
 	async recheck(): Promise<void> {
-		if (this.#rechecking || this.#closed) return;
+		if (this.#closed) return;
+		if (this.#rechecking) {
+			// one asked for while another runs (maybe one that began before a reconnect) runs after it
+			this.#recheckAgain = true;
+			return;
+		}
 		const ids = this.#o.keysInUse();
 		if (ids.length === 0) return;
 		this.#rechecking = true;
@@ -94,6 +100,10 @@ export class KeyWatch {
 			this.#recheckFailing = true;
 		} finally {
 			this.#rechecking = false;
+		}
+		if (this.#recheckAgain) {
+			this.#recheckAgain = false;
+			await this.recheck();
 		}
 	}
 
