@@ -1,12 +1,19 @@
 import type { Server } from 'node:http';
-import { sqlClient } from '../src/lib/server/db';
+import { databaseUrl, pingDatabase, sqlClient } from '../src/lib/server/db';
+import { registerProbe } from '../src/lib/server/health';
 import { PostgresIngestStore } from '../src/lib/server/ingest/store';
 import { applyRetention, createPartitionsAhead } from '../src/lib/server/ingest/partitions';
 import { logger } from '../src/lib/server/log';
 import { startMetricJobs, stopMetricJobs } from '../src/lib/server/metrics/jobs';
-import { keyExpiryChannel, keyRevokedChannel } from '../src/lib/server/rigs';
+import { feedKeyStates, keyExpiryChannel, keyRevokedChannel } from '../src/lib/server/rigs';
 import { interruptAbandonedRuns } from '../src/lib/server/runs/streamed';
-import { closeSocketsForKey, createIngestEndpoint, setKeyExpiry } from './ingest/endpoint';
+import {
+	closeSocketsForKey,
+	createIngestEndpoint,
+	keyIdsInUse,
+	setKeyExpiry
+} from './ingest/endpoint';
+import { KeyWatch } from './ingest/key-watch';
 import { postgresLiveDirectory } from './live/directory';
 import { createLiveEndpoint } from './live/endpoint';
 import { dispatchUpgrades } from './upgrade';
@@ -52,17 +59,29 @@ export function attachSockets(server: Server): AttachedSockets {
 		(err, context) => logger.error({ err, context }, 'socket upgrade error')
 	);
 
-	const listening = sql.listen(keyRevokedChannel, (keyId) => {
-		const n = closeSocketsForKey(keyId);
-		if (n) logger.info({ keyId, closed: n }, 'feed key revoked: sockets closed');
+	const keys = new KeyWatch({
+		url: databaseUrl(),
+		revokedChannel: keyRevokedChannel,
+		expiryChannel: keyExpiryChannel,
+		recheckMs: Number(process.env.FEED_KEY_RECHECK_SECONDS ?? 5) * 1000,
+		keysInUse: keyIdsInUse,
+		readStates: feedKeyStates,
+		stop: (keyId) => closeSocketsForKey(keyId),
+		expire: setKeyExpiry,
+		log: (level, msg, details) => logger[level](details ?? {}, msg)
 	});
-	const listeningExpiry = sql.listen(keyExpiryChannel, (payload) => {
-		const [keyId, at] = payload.split(' ');
-		const expiresAt = Number(at);
-		if (!keyId || !Number.isFinite(expiresAt)) return;
-		const n = setKeyExpiry(keyId, expiresAt);
-		if (n) logger.info({ keyId, connections: n, expiresAt }, 'feed key expiry set on open sockets');
-	});
+
+	// what the upgrades of this process wait on: its own pools (key checks, sessions, storage)
+	const probes = [
+		registerProbe('ingest', async () => {
+			await pingDatabase();
+			return keys.listening ? null : 'feed key revocations are not being received (reconnecting)';
+		}),
+		registerProbe('live', async () => {
+			await pingDatabase();
+			return null;
+		})
+	];
 
 	const graceMs = Number(process.env.INGEST_GRACE_SECONDS ?? 30) * 1000;
 	// runs left live by a previous process (crash, restart) become interrupted once their grace has passed
@@ -72,30 +91,35 @@ export function attachSockets(server: Server): AttachedSockets {
 		const days = Number(process.env.RETENTION_DAYS ?? 0);
 		if (days > 0) await applyRetention(sql, days);
 	};
-	const timers = [
-		setTimeout(
-			() => void sweep().catch((err) => logger.error({ err }, 'run sweep failed')),
-			graceMs + 1000
-		),
+	// the database may be down when these first run (the process started before it): each is tried again
+	// every 5 s until it has worked once
+	let closing = false;
+	const timers: ReturnType<typeof setTimeout>[] = [];
+	const once = (what: string, task: () => Promise<void>) => {
+		void task().catch((err: unknown) => {
+			logger.error({ err }, `${what} failed; trying again in 5 s`);
+			if (!closing) timers.push(setTimeout(() => once(what, task), 5000).unref());
+		});
+	};
+	timers.push(
+		setTimeout(() => once('run sweep', sweep), graceMs + 1000).unref(),
 		setInterval(
 			() => void maintain().catch((err) => logger.error({ err }, 'maintenance failed')),
 			hourMs
-		)
-	];
-	for (const t of timers) t.unref();
-	void maintain().catch((err) => logger.error({ err }, 'maintenance failed'));
-	void startMetricJobs(process.env.DATABASE_URL).catch((err) =>
-		logger.error({ err }, 'metric jobs failed to start')
+		).unref()
 	);
+	once('maintenance', maintain);
+	once('starting the metric jobs', () => startMetricJobs(process.env.DATABASE_URL));
 
 	return {
 		async close() {
+			closing = true;
 			for (const t of timers) clearTimeout(t);
 			await live.close();
 			await ingest.close();
+			for (const remove of probes) remove();
 			await stopMetricJobs();
-			await (await listening).unlisten();
-			await (await listeningExpiry).unlisten();
+			await keys.close();
 		}
 	};
 }

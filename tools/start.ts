@@ -52,9 +52,18 @@ for (const sig of ['SIGINT', 'SIGTERM'] as const) {
 		app.kill(sig);
 	});
 }
-app.on('exit', (code) => {
+app.on('exit', (code, signal) => {
+	const asked = stopping.signal.aborted;
 	stopping.abort();
-	void closeDb().finally(() => process.exit(code ?? 0));
+	const how = signal ? `by signal ${signal}` : `with exit code ${code}`;
+	if (asked) console.log(`\n  Skein stopped (${how}).\n`);
+	else
+		console.error(
+			`\n  Skein has stopped (${how}): the demo is no longer served at http://127.0.0.1:${port}.\n` +
+				'  Its last log lines are above. Start it again with npm start; in production a supervisor restarts\n' +
+				'  it (docs/deploy.md).\n'
+		);
+	void closeDb().finally(() => process.exit(asked ? 0 : code || 1));
 });
 
 const base = `http://127.0.0.1:${port}`;

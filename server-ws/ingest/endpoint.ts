@@ -214,6 +214,11 @@ export class IngestEndpoint {
 		return n;
 	}
 
+	/** The feed keys of the open connections. */
+	keyIdsInUse(): Set<string> {
+		return new Set([...this.#connections].map((conn) => conn.session.rig.keyId));
+	}
+
 	/** Closes every connection streaming with this key: 4001 "key revoked". Returns how many. */
 	closeSocketsForKey(keyId: string): number {
 		let closed = 0;
@@ -254,6 +259,13 @@ export function closeSocketsForKey(keyId: string): number {
 	let closed = 0;
 	for (const endpoint of liveEndpoints()) closed += endpoint.closeSocketsForKey(keyId);
 	return closed;
+}
+
+/** The feed keys open connections of this process stream with. */
+export function keyIdsInUse(): string[] {
+	const ids = new Set<string>();
+	for (const endpoint of liveEndpoints()) for (const id of endpoint.keyIdsInUse()) ids.add(id);
+	return [...ids];
 }
 
 /** A key's new expiry (ms since the epoch), for every ingest endpoint of this process. Returns the connections it applies to. */

@@ -325,7 +325,12 @@ describe('personal API tokens', () => {
 describe('operations', () => {
 	it('health and metrics', async () => {
 		const h = await fetch(`${base}/healthz`);
-		expect(await h.json()).toEqual({ status: 'ok', database: 'reachable' });
+		expect(await h.json()).toEqual({
+			status: 'ok',
+			database: 'reachable',
+			ingest: 'ok',
+			live: 'ok'
+		});
 		const m = await admin.get('/metrics');
 		expect(m.headers.get('content-type')).toContain('text/plain');
 		expect(await m.text()).toContain('skein_http_request_duration_seconds');

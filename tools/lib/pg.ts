@@ -17,7 +17,7 @@ import postgres from 'postgres';
 
 export interface ClusterOptions {
 	/** folder of the cluster's data */
-	name: 'pg' | 'pg-test';
+	name: 'pg' | 'pg-test' | 'pg-fault';
 	port: number;
 	database: string;
 	/** test clusters may trade durability for speed per database; the demo cluster never does */
@@ -148,15 +148,16 @@ export function startCluster(opts: ClusterOptions): string {
 	return clusterUrl(opts);
 }
 
-export function stopCluster(opts: ClusterOptions): void {
+/** `immediate` is a crash as PostgreSQL sees it: no checkpoint, backends killed, recovery on the next start. */
+export function stopCluster(opts: ClusterOptions, mode: 'fast' | 'immediate' = 'fast'): void {
 	const bin = findBinDir();
 	if (!bin) return;
 	const dir = dataDir(opts.name);
 	if (!existsSync(join(dir, 'PG_VERSION'))) return;
 	const status = asServerUser(join(bin, 'pg_ctl'), ['-D', dir, 'status'], { quiet: true });
 	if (status.status === 0) {
-		log(`stopping PostgreSQL (${opts.name})`);
-		asServerUser(join(bin, 'pg_ctl'), ['-D', dir, '-m', 'fast', '-w', 'stop']);
+		log(`stopping PostgreSQL (${opts.name}, ${mode})`);
+		asServerUser(join(bin, 'pg_ctl'), ['-D', dir, '-m', mode, '-w', 'stop']);
 	}
 }
 
@@ -207,4 +208,14 @@ export const testCluster: ClusterOptions = {
 	port: Number(process.env.SKEIN_PG_TEST_PORT ?? 54339),
 	database: 'skein_test',
 	relaxedDatabases: true
+};
+
+/**
+ * A cluster of its own for tests that stop and crash PostgreSQL, so the shared test cluster stays up. Its
+ * commits stay durable (no relaxed databases): a crash must not lose what was acknowledged.
+ */
+export const faultCluster: ClusterOptions = {
+	name: 'pg-fault',
+	port: Number(process.env.SKEIN_PG_FAULT_PORT ?? 54349),
+	database: 'skein_fault'
 };

@@ -1,5 +1,5 @@
 import { drizzle, type PostgresJsDatabase } from 'drizzle-orm/postgres-js';
-import { createConnection, type Socket } from 'node:net';
+import { Socket } from 'node:net';
 import postgres from 'postgres';
 import * as schema from './schema';
 import { frames } from './frames';
@@ -7,7 +7,7 @@ import { frames } from './frames';
 export type Schema = typeof schema & { frames: typeof frames };
 export type Database = PostgresJsDatabase<Schema>;
 
-function databaseUrl(): string {
+export function databaseUrl(): string {
 	const url = process.env.DATABASE_URL;
 	if (!url) throw new Error('DATABASE_URL is not set (npm start and npm test set it for you)');
 	return url;
@@ -20,26 +20,40 @@ let database: Database | undefined;
 /**
  * postgres.js leaves Nagle's algorithm on. A COPY ends with a small CopyDone written right after the data,
  * which then waits for the server's delayed ACK: about 40 ms, twice per COPY (measured). Sockets here send at once.
+ *
+ * The socket is handed back before it connects, and connected only after postgres.js has put its own
+ * `error` and `close` listeners on it. A factory that waits for the connection and rejects when it fails
+ * (PostgreSQL down or restarting) leaves postgres.js's connection in its "connecting" queue for good: it
+ * never sees a close, so it never returns to the pool. Each failed attempt then costs the pool one
+ * connection until every query waits forever (issue 11, finding 2).
  */
-function tcpNoDelay(options: { host: string[]; port: number[] }): Promise<Socket> {
-	return new Promise((resolve, reject) => {
-		const socket = createConnection({
-			host: options.host[0],
-			port: options.port[0],
-			noDelay: true
-		});
-		socket.once('connect', () => {
-			socket.off('error', reject);
-			resolve(socket);
-		});
-		socket.once('error', reject);
+function tcpNoDelay(options: { host: string[]; port: number[] }): Socket {
+	const socket = new Socket();
+	socket.setNoDelay(true);
+	setImmediate(() => {
+		if (!socket.destroyed) socket.connect(options.port[0], options.host[0]);
 	});
+	return socket;
+}
+
+/**
+ * Seconds before a connection is tried again after a failed attempt. postgres.js's default grows as 3^n/100 s
+ * up to 20 s over the failures of the whole pool, so rigs retrying while PostgreSQL is down push the pool's
+ * next try far past PostgreSQL's return. Capped at 1 s here, with jitter.
+ */
+function reconnectDelay(failures: number): number {
+	return Math.min(0.05 * 2 ** failures, 1) * (0.5 + Math.random() / 2);
 }
 
 function connect(): postgres.Sql {
 	// `socket` is a documented postgres.js option its type declarations leave out
 	const options = Object.assign(
-		{ max: Number(process.env.DATABASE_POOL ?? 10), onnotice: () => {} },
+		{
+			max: Number(process.env.DATABASE_POOL ?? 10),
+			onnotice: () => {},
+			backoff: reconnectDelay,
+			connect_timeout: 10
+		},
 		{ socket: tcpNoDelay }
 	);
 	return postgres(databaseUrl(), options);
@@ -60,6 +74,13 @@ export function db(): Database {
 	drizzleClient ??= connect();
 	database ??= drizzle(drizzleClient, { schema: { ...schema, frames } });
 	return database;
+}
+
+/** Both pools of this module answer `select 1` (throws otherwise); for /healthz. */
+export async function pingDatabase(): Promise<void> {
+	db();
+	const pools = [sqlClient(), drizzleClient].filter((c): c is postgres.Sql => c !== undefined);
+	await Promise.all(pools.map((c) => c`select 1`));
 }
 
 export async function closeDb(): Promise<void> {

@@ -2,7 +2,7 @@
  * Rigs and the feed keys they stream with. A feed key secret (`skf_…`) leaves this module once, when it is
  * made; afterwards only its prefix is known. Key hashes never leave it at all.
  */
-import { and, asc, desc, eq, gt, isNull, or, sql } from 'drizzle-orm';
+import { and, asc, desc, eq, gt, inArray, isNull, or, sql } from 'drizzle-orm';
 import { db, schema } from '$server/db';
 import { hashSecret, newSecret, secretPrefix } from '$server/auth/tokens';
 import type { Actor } from '$server/auth/audit';
@@ -442,6 +442,39 @@ export async function resolveFeedKey(secret: string): Promise<FeedKeyResolution>
 		keyId: row.keyId,
 		expiresAt: row.expiresAt ? row.expiresAt.getTime() : null
 	};
+}
+
+/** Whether a key in use still opens its feed: `stopped` says why not; expiresAt in ms since the epoch. */
+export interface FeedKeyState {
+	stopped: 'feed key revoked' | 'rig archived' | null;
+	expiresAt: number | null;
+}
+
+/**
+ * For the ingest side's periodic re-check of open connections (the safety net under the revocation
+ * notifications): each key's state now. A key that no longer exists counts as revoked.
+ */
+export async function feedKeyStates(keyIds: string[]): Promise<Map<string, FeedKeyState>> {
+	const states = new Map<string, FeedKeyState>(
+		keyIds.map((id) => [id, { stopped: 'feed key revoked', expiresAt: null }])
+	);
+	if (keyIds.length === 0) return states;
+	const rows = await db()
+		.select({
+			keyId: k.id,
+			revokedAt: k.revokedAt,
+			expiresAt: k.expiresAt,
+			archivedAt: r.archivedAt
+		})
+		.from(k)
+		.innerJoin(r, eq(r.id, k.rigId))
+		.where(inArray(k.id, keyIds));
+	for (const row of rows)
+		states.set(row.keyId, {
+			stopped: row.revokedAt ? 'feed key revoked' : row.archivedAt ? 'rig archived' : null,
+			expiresAt: row.expiresAt ? row.expiresAt.getTime() : null
+		});
+	return states;
 }
 
 /** For the ingest side: a connection was accepted on this key, and/or frames arrived on it. */
