@@ -13,7 +13,11 @@ import { frameTuple, uuidBytes } from './copy-binary';
 import { cardinalitySd, frameMetricsFor, rowOf } from './frame-rows';
 import { packMetrics, type RowBatch, type RowBatchResult } from './row-pool';
 
-const limits = { ...DEFAULT_LIMITS, maxSetSize: Number.MAX_SAFE_INTEGER };
+const limits = {
+	...DEFAULT_LIMITS,
+	maxSetSize: Number.MAX_SAFE_INTEGER,
+	maxPairs: Number.MAX_SAFE_INTEGER
+};
 
 function rows(batch: RowBatch): RowBatchResult {
 	const runIds = batch.runs.map((r) => uuidBytes(r.runId));
