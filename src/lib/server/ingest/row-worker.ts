@@ -25,8 +25,10 @@ function rows(batch: RowBatch): RowBatchResult {
 	const tuples: Buffer[] = [];
 	const ends = new Int32Array(batch.seq.length);
 	const metrics: number[] = [];
+	const ms = new Float64Array(batch.seq.length);
 	let total = 0;
 	for (let i = 0; i < batch.seq.length; i++) {
+		const started = performance.now();
 		const run = batch.runs[batch.run[i]];
 		const raw = data.subarray(batch.start[i], batch.start[i] + batch.length[i]);
 		const frame: MetricFrame =
@@ -41,6 +43,7 @@ function rows(batch: RowBatch): RowBatchResult {
 		total += tuple.length;
 		ends[i] = total;
 		packMetrics(metrics, m, sd, run.ctx.settings.zones);
+		ms[i] = performance.now() - started;
 	}
 	const out = new Uint8Array(total);
 	let o = 0;
@@ -48,7 +51,7 @@ function rows(batch: RowBatch): RowBatchResult {
 		out.set(tuple, o);
 		o += tuple.length;
 	}
-	return { id: batch.id, tuples: out.buffer, ends, metrics: Float64Array.from(metrics) };
+	return { id: batch.id, tuples: out.buffer, ends, metrics: Float64Array.from(metrics), ms };
 }
 
 parentPort?.on('message', (batch: RowBatch) => {
