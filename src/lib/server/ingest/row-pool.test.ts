@@ -2,6 +2,7 @@
  * Rows computed in the worker thread must be byte for byte the rows computed inline, and a failing worker
  * must fail the frames waiting for it, not lose them silently or hang.
  */
+import { existsSync, readdirSync, readFileSync } from 'node:fs';
 import { Packr } from 'msgpackr';
 import { afterAll, describe, expect, it } from 'vitest';
 import { defaultMetricSettings, type MetricSettings } from '$lib/metrics';
@@ -239,6 +240,26 @@ describe('RowPool', () => {
 				await pool.prepare(runId, ctx, dims, dense(2, 300));
 				expect(await ordinaryBeside(pool, dense(3, 600))).toBe(30);
 			});
+
+			it.runIf(existsSync('/proc/thread-self'))(
+				'runs the heavy lane’s worker at the lowest CPU priority',
+				async () => {
+					// field 19 of /proc/<pid>/task/<tid>/stat is the thread's nice value
+					const nice = () =>
+						readdirSync('/proc/self/task').map((tid) =>
+							Number(
+								readFileSync(`/proc/self/task/${tid}/stat`, 'utf8').split(') ')[1].split(' ')[16]
+							)
+						);
+					const pool = new RowPool(undefined, { heavyWorkers: 1 });
+					pools.push(pool);
+					await pool.prepare(otherRun, ctx, dims, light(0)); // the shared worker
+					const before = nice().filter((v) => v === 19).length;
+					await pool.prepare(runId, ctx, dims, dense(1, 200)); // and the heavy lane's
+					expect(nice().filter((v) => v === 19).length).toBe(before + 1);
+					expect(nice().filter((v) => v !== 19 && v !== 0)).toEqual([]);
+				}
+			);
 
 			it('takes heavy runs in turn, one frame each, and matches the inline rows', async () => {
 				const pool = new RowPool(undefined, { heavyWorkers: 1 });

@@ -118,13 +118,22 @@ interface Waiting {
  * The worker is TypeScript, run through tsx like the rest of the server. tsx's `--import` hook does not reach
  * worker threads, so the worker starts from a small script that registers tsx and then imports it.
  */
-function startWorker(entryUrl: URL): Worker {
+function startWorker(entryUrl: URL, workerData: RowWorkerData): Worker {
 	const entry = entryUrl.href;
 	// resolved here, so the worker finds tsx whatever the working directory (Vite's SSR runner has no resolve)
 	const tsx =
 		typeof import.meta.resolve === 'function' ? import.meta.resolve('tsx/esm/api') : 'tsx/esm/api';
 	const boot = `import(${JSON.stringify(tsx)}).then((tsx) => { tsx.register(); return import(${JSON.stringify(entry)}); })`;
-	return new Worker(boot, { eval: true });
+	return new Worker(boot, { eval: true, workerData });
+}
+
+export interface RowWorkerData {
+	/**
+	 * the heavy lane's workers run at the lowest CPU priority (Linux: the thread's nice value), so that on a
+	 * busy machine the socket thread and the shared worker are served first and a heavy run only takes what
+	 * is left
+	 */
+	lowPriority: boolean;
 }
 
 /** workers in a row that failed before computing anything; after this many the pool stands aside */
@@ -343,7 +352,7 @@ export class RowPool {
 
 	#ensureWorker(slot: Slot): Worker {
 		if (slot.worker) return slot.worker;
-		const worker = startWorker(this.#entry);
+		const worker = startWorker(this.#entry, { lowPriority: slot !== this.#shared });
 		let answered = false;
 		worker.on('message', (msg: RowBatchResult | { id: number; error: string }) => {
 			answered = true;

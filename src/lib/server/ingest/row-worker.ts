@@ -4,14 +4,26 @@
  * with the fast reader, or decodes them when that declines (e.g. a set larger than the default limits).
  * Messages: see row-pool.ts.
  */
-import { parentPort } from 'node:worker_threads';
+import { readlinkSync } from 'node:fs';
+import { constants, setPriority } from 'node:os';
+import { parentPort, workerData } from 'node:worker_threads';
 import { fromMsgpack } from '$lib/protocol/codec';
 import { readFrame } from '$lib/protocol/frame-reader';
 import { DEFAULT_LIMITS } from '$lib/protocol/limits';
 import type { MetricFrame } from '$lib/metrics/frame';
 import { frameTuple, uuidBytes } from './copy-binary';
 import { cardinalitySd, frameMetricsFor, rowOf } from './frame-rows';
-import { packMetrics, type RowBatch, type RowBatchResult } from './row-pool';
+import { packMetrics, type RowBatch, type RowBatchResult, type RowWorkerData } from './row-pool';
+
+if ((workerData as RowWorkerData | undefined)?.lowPriority) {
+	try {
+		// Linux: /proc/thread-self names this thread's id, and setpriority on a thread id sets that thread alone
+		const tid = Number(readlinkSync('/proc/thread-self').split('/').pop());
+		if (Number.isInteger(tid) && tid > 0) setPriority(tid, constants.priority.PRIORITY_LOW);
+	} catch {
+		// elsewhere the heavy lane runs at normal priority: still isolated, only not yielding the CPU
+	}
+}
 
 const limits = {
 	...DEFAULT_LIMITS,
