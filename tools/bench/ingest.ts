@@ -248,9 +248,11 @@ async function heavyMain(dbUrl: string, keys: string[], templates: Buffer[]) {
 		{ k: 500, everyMs: 250, what: '500 × 500 within c (largest the pairs limit accepts), 4 Hz' }
 	];
 	let runIx = 0;
-	for (const v of variants) {
+	// BENCH_HEAVY=500 (or 5000) runs that variant alone
+	const only = process.env.BENCH_HEAVY ? Number(process.env.BENCH_HEAVY) : null;
+	for (const v of variants.filter((x) => only === null || x.k === only)) {
 		const template = template_(heavyFrame(v.k, r));
-		const app = await startApp({ DATABASE_URL: dbUrl, LOG_LEVEL: 'error' });
+		const app = await startApp({ DATABASE_URL: dbUrl, LOG_LEVEL: 'warn' });
 		const wsUrl = app.url.replace('http', 'ws') + '/ingest/v1';
 		console.log(`\nheavy frame: ${v.what}; ${(template.length / 1024).toFixed(0)} KB MessagePack`);
 		// the app's first frames also wait for its row worker to start: not what is measured here
@@ -298,6 +300,8 @@ async function heavyMain(dbUrl: string, keys: string[], templates: Buffer[]) {
 			}
 		}
 		console.log(`  app peak memory (VmHWM) ${peakRssMb(app.child.pid)}`);
+		const moved = app.output().match(/computing them in the heavy lane/g)?.length ?? 0;
+		console.log(`  runs moved to the heavy lane by their measured time: ${moved}`);
 		await app.stop();
 	}
 }

@@ -110,7 +110,7 @@ export function gospaFromSquaredDistances(
 ): GospaResult {
 	checkOrder(c, p);
 	const c2 = c * c;
-	const pairs = new PairList(Math.min(m * n, 1024));
+	const pairs = new PairList();
 	for (let i = 0; i < m; i++) {
 		for (let j = 0; j < n; j++) {
 			const s = d2[i * n + j];
@@ -124,36 +124,54 @@ export function gospaFromSquaredDistances(
 /** The pairs of a truth and an estimate closer than the cut-off, with their squared distances, in no set order. */
 export interface ClosePairs {
 	count: number;
-	truth: Int32Array;
-	estimate: Int32Array;
-	d2: Float64Array;
+	truth: ArrayLike<number>;
+	estimate: ArrayLike<number>;
+	d2: ArrayLike<number>;
 }
 
+/** Plain arrays: small ones cost far less to make than typed arrays, and most frames have few pairs. */
 class PairList implements ClosePairs {
 	count = 0;
-	truth: Int32Array;
-	estimate: Int32Array;
-	d2: Float64Array;
-
-	constructor(capacity: number) {
-		const n = Math.max(capacity, 16);
-		this.truth = new Int32Array(n);
-		this.estimate = new Int32Array(n);
-		this.d2 = new Float64Array(n);
-	}
+	truth: number[] = [];
+	estimate: number[] = [];
+	d2: number[] = [];
 
 	push(i: number, j: number, s: number): void {
-		if (this.count === this.truth.length) {
-			const grow = <T extends Int32Array | Float64Array>(a: T, b: T): T => (b.set(a), b);
-			const n = this.count * 2;
-			this.truth = grow(this.truth, new Int32Array(n));
-			this.estimate = grow(this.estimate, new Int32Array(n));
-			this.d2 = grow(this.d2, new Float64Array(n));
-		}
-		this.truth[this.count] = i;
-		this.estimate[this.count] = j;
-		this.d2[this.count++] = s;
+		this.truth.push(i);
+		this.estimate.push(j);
+		this.d2.push(s);
+		this.count++;
 	}
+
+	clear(): void {
+		this.count = this.truth.length = this.estimate.length = this.d2.length = 0;
+	}
+}
+
+/**
+ * Working memory of gospaFromClosePairs, kept between calls (JavaScript runs one call at a time): making
+ * a dozen typed arrays per frame cost more than the whole GOSPA of a frame of ten objects.
+ */
+const scratch: Int32Array[] = [];
+const scratchF: Float64Array[] = [];
+let scratchU = new Uint8Array(64);
+
+/** Scratch integers `slot`, at least n of them, contents undefined. */
+function ints(slot: number, n: number): Int32Array {
+	let a = scratch[slot];
+	if (!a || a.length < n) scratch[slot] = a = new Int32Array(Math.max(64, 2 * n));
+	return a;
+}
+
+function floats(slot: number, n: number): Float64Array {
+	let a = scratchF[slot];
+	if (!a || a.length < n) scratchF[slot] = a = new Float64Array(Math.max(64, 2 * n));
+	return a;
+}
+
+function bytes(n: number): Uint8Array {
+	if (scratchU.length < n) scratchU = new Uint8Array(2 * n);
+	return scratchU;
 }
 
 /** below this many truth × estimate pairs every pair is measured; above, a grid finds the near ones */
@@ -195,7 +213,7 @@ export function closePairs(
 		}
 		return s;
 	};
-	const pairs = new PairList(Math.min(m * n, 1024));
+	const pairs = new PairList();
 	const grid = options.grid ?? m * n > GRID_FROM_PAIRS;
 	if (
 		grid &&
@@ -205,7 +223,7 @@ export function closePairs(
 		gridPairs(truth, m, estimates, n, dim, c, weights, d2, pairs)
 	)
 		return pairs;
-	pairs.count = 0;
+	pairs.clear();
 	for (let i = 0; i < m; i++) {
 		for (let j = 0; j < n; j++) {
 			const s = d2(i, j);
@@ -317,7 +335,7 @@ export function gospaFromClosePairs(
 	const { count } = pairs;
 
 	// components by union-find over truth 0..m−1 and estimates m..m+n−1
-	const parent = new Int32Array(m + n);
+	const parent = ints(0, m + n);
 	for (let k = 0; k < m + n; k++) parent[k] = k;
 	const find = (k: number): number => {
 		while (parent[k] !== k) {
@@ -334,9 +352,9 @@ export function gospaFromClosePairs(
 		if (ra !== rb) parent[ra] = rb;
 	}
 	// component ids in order of first member; each member's place among its component's truth or estimates
-	const compOfRoot = new Int32Array(m + n).fill(-1);
-	const comp = new Int32Array(m + n);
-	const local = new Int32Array(m + n);
+	const compOfRoot = ints(1, m + n).fill(-1, 0, m + n);
+	const comp = ints(2, m + n);
+	const local = ints(3, m + n);
 	const rows: number[] = [];
 	const cols: number[] = [];
 	for (let k = 0; k < m + n; k++) {
@@ -352,29 +370,31 @@ export function gospaFromClosePairs(
 	}
 	const groups = rows.length;
 	// members of each component, ascending, and its pairs, by counting sort
-	const truthStart = new Int32Array(groups + 1);
-	const estStart = new Int32Array(groups + 1);
-	const pairStart = new Int32Array(groups + 1);
+	const truthStart = ints(4, groups + 1);
+	const estStart = ints(5, groups + 1);
+	const pairStart = ints(6, groups + 1).fill(0, 0, groups + 1);
+	truthStart[0] = estStart[0] = 0;
 	for (let g = 0; g < groups; g++) {
 		truthStart[g + 1] = truthStart[g] + rows[g];
 		estStart[g + 1] = estStart[g] + cols[g];
 	}
 	for (let e = 0; e < count; e++) if (near(e)) pairStart[comp[pairs.truth[e]] + 1]++;
 	for (let g = 0; g < groups; g++) pairStart[g + 1] += pairStart[g];
-	const truthIdx = new Int32Array(m);
-	const estIdx = new Int32Array(n);
+	const truthIdx = ints(7, m);
+	const estIdx = ints(8, n);
 	for (let k = 0; k < m + n; k++) {
 		if (k < m) truthIdx[truthStart[comp[k]] + local[k]] = k;
 		else estIdx[estStart[comp[k]] + local[k]] = k - m;
 	}
-	const byComp = new Int32Array(pairStart[groups]);
-	const fill = pairStart.slice(0, groups);
+	const byComp = ints(9, pairStart[groups]);
+	const fill = ints(10, groups);
+	fill.set(pairStart.subarray(0, groups));
 	for (let e = 0; e < count; e++) if (near(e)) byComp[fill[comp[pairs.truth[e]]]++] = e;
 
 	const truthToEstimate = new Int32Array(m).fill(-1);
 	const estimateToTruth = new Int32Array(n).fill(-1);
 	/** d^p of each truth object's pair */
-	const pairCost = new Float64Array(m);
+	const pairCost = floats(0, m);
 	for (let g = 0; g < groups; g++) {
 		const r = rows[g];
 		const k = cols[g];
@@ -386,8 +406,10 @@ export function gospaFromClosePairs(
 			continue;
 		}
 		// the component's cut-off cost matrix: c^p wherever no pair is closer than c
-		const sub = new Float64Array(r * k).fill(cp);
-		const close = new Uint8Array(r * k);
+		const sub = floats(1, r * k)
+			.subarray(0, r * k)
+			.fill(cp);
+		const close = bytes(r * k).fill(0, 0, r * k);
 		for (let q = pairStart[g]; q < pairStart[g + 1]; q++) {
 			const e = byComp[q];
 			const at = local[pairs.truth[e]] * k + local[m + pairs.estimate[e]];

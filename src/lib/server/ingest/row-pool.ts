@@ -417,6 +417,11 @@ export class RowPool {
 			this.#slowOnce.delete(runId);
 		} else if (this.#slowOnce.has(runId)) {
 			this.#slowOnce.delete(runId);
+			if (!this.#heavyRuns.has(runId))
+				logger.warn(
+					{ runId, ms },
+					'frames of this run take long; computing them in the heavy lane'
+				);
 			this.#heavyRuns.set(runId, Date.now() + HEAVY_RUN_MS);
 		} else this.#slowOnce.add(runId);
 	}
