@@ -89,11 +89,12 @@ function dimensionMismatch(a: number, b: number): RangeError {
 	return new RangeError(`dimension mismatch: ${a} vs ${b}`);
 }
 
-function flatten(points: readonly Point[], dim: number): Float64Array {
-	const out = new Float64Array(points.length * dim);
-	points.forEach((q, i) => {
-		for (let k = 0; k < dim; k++) out[i * dim + k] = q[k];
-	});
+function flatten(points: readonly Point[], dim: number): number[] {
+	const out: number[] = [];
+	for (let i = 0; i < points.length; i++) {
+		const q = points[i];
+		for (let k = 0; k < dim; k++) out.push(q[k]);
+	}
 	return out;
 }
 
@@ -191,9 +192,9 @@ const MAX_CELL_INDEX = 2 ** 40;
  * `grid`: force the grid (true) or every pair (false), for tests; by default by size.
  */
 export function closePairs(
-	truth: Float64Array,
+	truth: ArrayLike<number>,
 	m: number,
-	estimates: Float64Array,
+	estimates: ArrayLike<number>,
 	n: number,
 	c: number,
 	options: { weights?: ArrayLike<number>; grid?: boolean } = {}
@@ -224,6 +225,21 @@ export function closePairs(
 	)
 		return pairs;
 	pairs.clear();
+	if (dim === 2 && !weights) {
+		// the common case written out: the same sums as squaredDistance's, in the same order
+		for (let i = 0; i < m; i++) {
+			const tx = truth[2 * i];
+			const ty = truth[2 * i + 1];
+			for (let j = 0; j < n; j++) {
+				const dx = tx - estimates[2 * j];
+				const dy = ty - estimates[2 * j + 1];
+				const s = dx * dx + dy * dy;
+				if (!(s >= 0)) return null;
+				if (s < c2) pairs.push(i, j, s);
+			}
+		}
+		return pairs;
+	}
 	for (let i = 0; i < m; i++) {
 		for (let j = 0; j < n; j++) {
 			const s = d2(i, j);
@@ -236,9 +252,9 @@ export function closePairs(
 
 /** The grid search of closePairs; false when the coordinates do not allow it (non-finite, or too far apart for c). */
 function gridPairs(
-	truth: Float64Array,
+	truth: ArrayLike<number>,
 	m: number,
-	estimates: Float64Array,
+	estimates: ArrayLike<number>,
 	n: number,
 	dim: number,
 	c: number,
@@ -272,8 +288,8 @@ function gridPairs(
 	}
 	const side = c * (1 + CELL_MARGIN) + 8 * Number.EPSILON * maxAbs;
 	if (!(maxAbs / side < MAX_CELL_INDEX)) return false;
-	const cellA = (set: Float64Array, i: number) => Math.floor((sa * set[i * dim + a]) / side);
-	const cellB = (set: Float64Array, i: number) =>
+	const cellA = (set: ArrayLike<number>, i: number) => Math.floor((sa * set[i * dim + a]) / side);
+	const cellB = (set: ArrayLike<number>, i: number) =>
 		b < 0 ? 0 : Math.floor((sb * set[i * dim + b]) / side);
 
 	// estimates sorted by cell (A, then B): the estimates of one A column and three B rows are one run
