@@ -2,11 +2,16 @@
  * `npm run bench:ingest` — ingest throughput and ack latency on loopback, against a durable database
  * (fsync and synchronous_commit on), and in the same run the rate of a raw COPY of the same encoded rows
  * into the same table. Frames: 40 2-D measurements, 20 4-D estimates with 4×4 P and r, 20 truth objects.
+ *
+ * `npm run bench:heavy` (this file with the argument `heavy`) — isolation: four ordinary rigs at 50 Hz, alone
+ * and then beside a rig sending frames whose GOSPA is expensive (all objects within the cut-off of each
+ * other), in the same run: the ordinary rigs' ack latency with and without the heavy rig.
  */
 import { pack, unpack } from '../../src/lib/msgpack';
 import { percentile as pct } from '../../src/lib/percentile';
 import { seededRandom as rng } from '../../src/lib/random';
 import { performance } from 'node:perf_hooks';
+import { readFileSync } from 'node:fs';
 import { resolve } from 'node:path';
 import postgres from 'postgres';
 import WebSocket from 'ws';
@@ -159,6 +164,156 @@ function template(f: ReturnType<typeof benchFrame>): Buffer {
 	return Buffer.concat(parts);
 }
 
+/**
+ * k truth objects and k estimates (4-D x, float64) within a few metres of each other: one k × k GOSPA group
+ * under the default cut-off (10 m). k = 5,000 is the frame of issue 11 (5,000 and 5,000 within the cut-off);
+ * k = 500 is the largest such frame the pairs limit accepts.
+ */
+function heavyFrame(k: number, r: () => number): ReturnType<typeof benchFrame> {
+	const truth = Array.from({ length: k }, (_, i) => ({
+		id: i,
+		x: [r() * 5, r() * 5, r(), r()]
+	}));
+	return {
+		type: 'frame',
+		seq: 0,
+		t: 0,
+		ego: { x: 0, y: 0, heading: 0 },
+		measurements: [],
+		estimates: truth.map((o) => ({ id: o.id, x: [o.x[0] + r(), o.x[1] + r(), o.x[2], o.x[3]] })),
+		truth
+	};
+}
+
+/**
+ * The heavy rig: one pre-encoded frame every `everyMs` until `untilMs`, acks and errors counted, then the
+ * socket is dropped without waiting for what is still in work (the run stays live in its grace period).
+ */
+async function heavyRig(
+	url: string,
+	key: string,
+	id: string,
+	opts: { untilMs: number; everyMs: number; template: Buffer; t0: number }
+): Promise<{ sent: number; acked: number; errors: Set<string> }> {
+	const ws = new WebSocket(url, {
+		headers: { authorization: `Bearer ${key}` },
+		perMessageDeflate: false
+	});
+	await new Promise((res, rej) => (ws.once('open', res), ws.once('error', rej)));
+	let acked = -1;
+	const errors = new Set<string>();
+	let opened: (() => void) | null = null;
+	ws.on('message', (d) => {
+		const m = unpack(d as Buffer) as Record<string, unknown>;
+		if (m.type === 'opened') opened?.();
+		else if (m.type === 'ack') acked = m.seq as number;
+		else if (m.type === 'error') errors.add(`${m.code}: ${String(m.message)}`);
+	});
+	await new Promise<void>((res) => {
+		opened = res;
+		ws.send(
+			pack({
+				type: 'open',
+				client_run_id: id,
+				run: { name: id, state_fields: stateFields, measurement_fields: ['x', 'y'] }
+			})
+		);
+	});
+	let seq = 0;
+	while (performance.now() < opts.untilMs) {
+		const msg = Buffer.from(opts.template);
+		msg.writeUInt32BE(seq, seqOffset);
+		msg.writeDoubleBE(opts.t0 + seq * 0.05, tOffset);
+		ws.send(msg);
+		seq++;
+		await new Promise((r) => setTimeout(r, opts.everyMs));
+	}
+	ws.terminate();
+	return { sent: seq, acked: acked + 1, errors };
+}
+
+/** Peak resident memory of a process, from /proc (Linux), in MB. */
+function peakRssMb(pid: number | undefined): string {
+	try {
+		const status = readFileSync(`/proc/${pid}/status`, 'utf8');
+		const kb = Number(/VmHWM:\s+(\d+)/.exec(status)?.[1]);
+		return `${(kb / 1024).toFixed(0)} MB`;
+	} catch {
+		return 'unknown';
+	}
+}
+
+async function heavyMain(dbUrl: string, keys: string[], templates: Buffer[]) {
+	const rate = 50;
+	console.log(
+		`\nfour ordinary rigs at ${rate} Hz each (the frame above), alone and beside a heavy rig, ${seconds} s each; ack latency of the ordinary rigs only`
+	);
+	const r = rng(7);
+	const variants = [
+		{ k: 5000, everyMs: 4000, what: '5,000 truth × 5,000 estimates within c, every 4 s' },
+		{ k: 500, everyMs: 250, what: '500 × 500 within c (largest the pairs limit accepts), 4 Hz' }
+	];
+	let runIx = 0;
+	// BENCH_HEAVY=500 (or 5000) runs that variant alone
+	const only = process.env.BENCH_HEAVY ? Number(process.env.BENCH_HEAVY) : null;
+	for (const v of variants.filter((x) => only === null || x.k === only)) {
+		const heavyTemplate = template(heavyFrame(v.k, r));
+		const app = await startApp({ DATABASE_URL: dbUrl, LOG_LEVEL: 'warn' });
+		const wsUrl = app.url.replace('http', 'ws') + '/ingest/v1';
+		console.log(
+			`\nheavy frame: ${v.what}; ${(heavyTemplate.length / 1024).toFixed(0)} KB MessagePack`
+		);
+		// the app's first frames also wait for its row worker to start: not what is measured here
+		await benchRig(wsUrl, keys[5], `warm-up-${runIx}`, {
+			untilMs: performance.now() + 2000,
+			rateHz: rate,
+			templates,
+			t0: Date.UTC(2026, 11, 2) / 1000 + runIx * 3600
+		});
+		for (const withHeavy of [false, true]) {
+			const untilMs = performance.now() + seconds * 1000;
+			const t0 = Date.UTC(2026, 11, 1) / 1000 + runIx * 3600;
+			const heavy = withHeavy
+				? heavyRig(wsUrl, keys[4], `heavy-${runIx}`, {
+						untilMs,
+						everyMs: v.everyMs,
+						template: heavyTemplate,
+						t0
+					})
+				: null;
+			const out = await Promise.all(
+				Array.from({ length: 4 }, (_, i) =>
+					benchRig(wsUrl, keys[i], `ordinary-${runIx}-${i}`, {
+						untilMs,
+						rateHz: rate,
+						templates,
+						t0
+					})
+				)
+			);
+			runIx++;
+			const lat = out.flatMap((o) => o.latencies);
+			const h = heavy ? await heavy : null;
+			console.log(
+				`  ${(withHeavy ? 'beside the heavy rig' : 'alone').padEnd(22)} ack p50 ${pct(lat, 50).toFixed(1).padStart(7)} ms   p99 ${pct(lat, 99).toFixed(1).padStart(8)} ms   max ${Math.max(
+					...lat
+				)
+					.toFixed(1)
+					.padStart(8)} ms   (${lat.length} frames)`
+			);
+			if (h) {
+				console.log(
+					`  heavy rig: ${h.sent} frames sent, ${h.acked} acknowledged before it left${h.errors.size ? `; errors: ${[...h.errors].join('; ')}` : ''}`
+				);
+			}
+		}
+		console.log(`  app peak memory (VmHWM) ${peakRssMb(app.child.pid)}`);
+		const moved = app.output().match(/computing them in the heavy lane/g)?.length ?? 0;
+		console.log(`  runs moved to the heavy lane by their measured time: ${moved}`);
+		await app.stop();
+	}
+}
+
 async function main() {
 	const base = startCluster(testCluster);
 	const dbUrl = new URL(clusterUrl(testCluster));
@@ -174,11 +329,6 @@ async function main() {
 	console.log(`database: fsync=${fsync}, synchronous_commit=${sc}; ${seconds} s per configuration`);
 
 	buildIfStale();
-	const app = await startApp(
-		{ DATABASE_URL: dbUrl.toString(), LOG_LEVEL: 'error' },
-		process.env.BENCH_PROFILE ? ['--cpu-prof', `--cpu-prof-dir=${process.env.BENCH_PROFILE}`] : []
-	);
-	let wsUrl = app.url.replace('http', 'ws') + '/ingest/v1';
 	const r = rng(1);
 	const templates = Array.from({ length: 64 }, (_, i) => template(benchFrame(i, 0, r)));
 	const check = unpack(templates[0]) as Frame;
@@ -195,6 +345,17 @@ async function main() {
 		await sql`insert into feed_keys (rig_id, prefix, key_hash) values (${rig.id}, ${secretPrefix(secret)}, ${hashSecret(secret)})`;
 		keys.push(secret);
 	}
+	if (process.argv[2] === 'heavy') {
+		await heavyMain(dbUrl.toString(), keys, templates);
+		await sql.end();
+		return;
+	}
+
+	const app = await startApp(
+		{ DATABASE_URL: dbUrl.toString(), LOG_LEVEL: 'error' },
+		process.env.BENCH_PROFILE ? ['--cpu-prof', `--cpu-prof-dir=${process.env.BENCH_PROFILE}`] : []
+	);
+	let wsUrl = app.url.replace('http', 'ws') + '/ingest/v1';
 
 	const results: { label: string; fps: number; p50: number; p99: number }[] = [];
 	let runIx = 0;

@@ -2,7 +2,7 @@
 import type { EgoPose } from '../protocol/types';
 import { cardinalityStats, existence, type CardinalityStats } from './cardinality';
 import { nees as neesOf, subBlock } from './consistency';
-import { gospaFromSquaredDistances, squaredDistance, type GospaResult } from './gospa';
+import { closePairs, gospaFromClosePairs, type ClosePairs, type GospaResult } from './gospa';
 import type { MetricSettings } from './settings';
 import type { Coords } from '../runs';
 import { changeCoords, zoneOccupancy, type PlanarObject } from './zones';
@@ -174,40 +174,34 @@ function frameGospa(
 ): GospaResult | null {
 	const m = truth.length;
 	const n = estimates.length;
-	const d2 = new Float64Array(m * n);
+	let pairs: ClosePairs | null;
 	if (settings.distance === 'state') {
-		if (
-			truth.some((t) => t.x.length !== layout.dim) ||
-			estimates.some((e) => e.x.length !== layout.dim)
-		)
+		const { dim } = layout;
+		if (truth.some((t) => t.x.length !== dim) || estimates.some((e) => e.x.length !== dim))
 			return null;
-		for (let i = 0; i < m; i++) {
-			for (let j = 0; j < n; j++)
-				d2[i * n + j] = squaredDistance(truth[i].x, estimates[j].x, settings.weights);
-		}
+		const tx = new Float64Array(m * dim);
+		const ex = new Float64Array(n * dim);
+		truth.forEach((t, i) => tx.set(t.x, i * dim));
+		estimates.forEach((e, j) => ex.set(e.x, j * dim));
+		pairs = closePairs(tx, m, ex, n, settings.c, { weights: settings.weights });
 	} else {
 		const { ix, iy } = layout;
-		// the estimates' positions read once, not once per truth object
-		const ex = new Float64Array(n);
-		const ey = new Float64Array(n);
+		const tx = new Float64Array(m * 2);
+		const ex = new Float64Array(n * 2);
+		for (let i = 0; i < m; i++) {
+			const x = truth[i].x;
+			if (x[ix] === undefined || x[iy] === undefined) return null;
+			tx[2 * i] = x[ix];
+			tx[2 * i + 1] = x[iy];
+		}
 		for (let j = 0; j < n; j++) {
 			const x = estimates[j].x;
-			ex[j] = x[ix] ?? NaN;
-			ey[j] = x[iy] ?? NaN;
+			ex[2 * j] = x[ix] ?? NaN;
+			ex[2 * j + 1] = x[iy] ?? NaN;
 		}
-		for (let i = 0; i < m; i++) {
-			const tx = truth[i].x[ix];
-			const ty = truth[i].x[iy];
-			if (tx === undefined || ty === undefined) return null;
-			for (let j = 0; j < n; j++) {
-				const dx = ex[j] - tx;
-				const dy = ey[j] - ty;
-				d2[i * n + j] = dx * dx + dy * dy;
-			}
-		}
+		pairs = closePairs(tx, m, ex, n, settings.c);
 	}
-	for (let k = 0; k < d2.length; k++) if (!(d2[k] >= 0)) return null;
-	return gospaFromSquaredDistances(d2, m, n, settings.c, settings.p);
+	return pairs && gospaFromClosePairs(pairs, m, n, settings.c, settings.p);
 }
 
 function pairNees(

@@ -1,9 +1,12 @@
 export { solveAssignment, InfeasibleAssignmentError, type Assignment } from './assignment';
 export {
+	closePairs,
 	gospa,
+	gospaFromClosePairs,
 	gospaFromSquaredDistances,
 	ospa,
 	squaredDistance,
+	type ClosePairs,
 	type GospaOptions,
 	type GospaResult,
 	type OspaResult,

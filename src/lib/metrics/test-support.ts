@@ -1,4 +1,7 @@
 /** Brute-force references shared by the metrics tests. */
+import { expect } from 'vitest';
+import type { GospaResult } from './gospa';
+import published from './fixtures/gospa-published-example.json';
 
 /** Minimum assignment cost over all injections of the smaller side into the larger one. */
 export function bruteForceAssignmentCost(
@@ -26,4 +29,19 @@ export function bruteForceAssignmentCost(
 	};
 	walk(0, 0);
 	return best;
+}
+
+/**
+ * Checks a GOSPA result for the published example against the GOSPA authors' reference MATLAB
+ * implementation output (fixtures/gospa-published-example.json names the source).
+ */
+export function expectPublishedGospa(r: GospaResult): void {
+	const cp = Math.pow(published.c, published.p);
+	expect(r.gospa).toBeCloseTo(published.published.d_gospa, 10);
+	expect(r.localization).toBeCloseTo(published.published.localisation_cost, 10);
+	expect((cp / 2) * r.missed).toBeCloseTo(published.published.missed_cost, 12);
+	expect((cp / 2) * r.falseCount).toBeCloseTo(published.published.false_cost, 12);
+	expect(Array.from(r.truthToEstimate, (j) => j + 1)).toEqual(
+		published.published.x_to_y_assignment_1_based
+	);
 }

@@ -201,9 +201,13 @@ describe('readFrame: anything else goes to the general path', () => {
 		['unknown estimate field', { ...base, estimates: [{ ...est, colour: 'red' }] }],
 		['unknown truth field', { ...base, truth: [{ x: [1, 2, 3, 4], r: 1 }] }],
 		['truth without x', { ...base, truth: [{ id: 1 }] }],
-		['too many items', { ...base, truth: Array.from({ length: 6 }, () => ({ x: [1, 2, 3, 4] })) }]
+		['too many items', { ...base, truth: Array.from({ length: 6 }, () => ({ x: [1, 2, 3, 4] })) }],
+		[
+			'too many truth × estimate pairs',
+			{ ...base, estimates: Array(5).fill(est), truth: Array(5).fill(base.truth[0]) }
+		]
 	];
-	const limits = resolveLimits({ maxSetSize: 5 });
+	const limits = resolveLimits({ maxSetSize: 5, maxPairs: 20 });
 	for (const [name, msg] of cases) {
 		it(name, () => {
 			const bytes = packr.pack(msg);
@@ -211,6 +215,13 @@ describe('readFrame: anything else goes to the general path', () => {
 			expect(readFrame(bytes, dims, limits)).toBeNull();
 		});
 	}
+
+	it('reads a frame at exactly the pairs limit', () => {
+		const msg = { ...base, estimates: Array(4).fill(est), truth: Array(5).fill(base.truth[0]) };
+		const bytes = packr.pack(msg);
+		expect(readFrame(bytes, dims, limits)).toEqual(generalPath(bytes, limits));
+		expect(readFrame(bytes, dims, limits)?.estimates).toHaveLength(4);
+	});
 
 	it('a duplicate key, which the general path resolves as last-wins, is left to it', () => {
 		// {type, seq, t, seq}: hand-encoded, as no encoder writes duplicates

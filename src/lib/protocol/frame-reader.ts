@@ -471,5 +471,6 @@ function readTop(dims: RunDims, limits: IngestLimits): ReadFrame | null {
 		} else return null;
 	}
 	const required = T_TYPE | T_SEQ | T_T;
+	if ((frame.truth?.length ?? 0) * (frame.estimates?.length ?? 0) > limits.maxPairs) return null;
 	return (seen & required) === required ? frame : null;
 }

@@ -8,6 +8,12 @@ export interface IngestLimits {
 	maxMessageBytes: number;
 	/** items in one set (measurements, estimates, truth) of one frame */
 	maxSetSize: number;
+	/**
+	 * truth objects × estimates in one frame: the pairs GOSPA may have to match. Objects closer than the
+	 * cut-off form groups solved one by one, but one group of k × k objects costs about k³, so this bounds
+	 * the worst frame (500 × 500, all near each other: about 0.3 s of one core).
+	 */
+	maxPairs: number;
 	/** length of state_fields and of measurement_fields */
 	maxDim: number;
 	maxFieldNameLength: number;
@@ -32,6 +38,7 @@ export interface IngestLimits {
 export const DEFAULT_LIMITS: Readonly<IngestLimits> = Object.freeze({
 	maxMessageBytes: 1024 * 1024,
 	maxSetSize: 5000,
+	maxPairs: 250_000,
 	maxDim: 16,
 	maxFieldNameLength: 32,
 	maxIdLength: 128,

@@ -100,6 +100,27 @@ describe('validateFrame', () => {
 		expect(broken((f) => (f.truth = exactly))).toBe('ok');
 	});
 
+	it('checks truth objects × estimates, the pairs GOSPA may have to match', () => {
+		const objects = (n: number) => Array.from({ length: n }, (_, i) => ({ x: [i, 0, 0, 0] }));
+		const sets = (t: number, e: number) => (f: Record<string, unknown>) => {
+			f.truth = objects(t);
+			f.estimates = objects(e);
+		};
+		expect(DEFAULT_LIMITS.maxPairs).toBe(250_000);
+		expect(broken(sets(500, 500))).toBe('ok');
+		expect(broken(sets(5000, 50))).toBe('ok');
+		expect(broken(sets(501, 500))).toBe(
+			'truth: 501 objects × 500 estimates = 250500 pairs, at most 250000'
+		);
+		// without truth there is nothing to match; measurements never count
+		expect(broken((f) => ((f.truth = undefined), (f.estimates = objects(5000))))).toBe('ok');
+		expect(
+			broken(
+				(f) => (sets(500, 500)(f), (f.measurements = objects(5000).map(() => ({ z: [1, 2] }))))
+			)
+		).toBe('ok');
+	});
+
 	it('checks estimates', () => {
 		expect(broken((f) => (estimate(f).x = [1, 2, 3]))).toBe('estimates[0].x: length 3, expected 4');
 		expect(broken((f) => delete estimate(f).x)).toBe('estimates[0].x: missing');

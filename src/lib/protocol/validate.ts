@@ -268,6 +268,14 @@ export function validateFrame(
 		checkSet('estimates', msg.estimates, dims.stateDim, limits, checkEstimate) ??
 		checkSet('truth', msg.truth, dims.stateDim, limits, checkTruth);
 	if (failed !== null) return failed;
+	const nTruth = Array.isArray(msg.truth) ? msg.truth.length : 0;
+	const nEst = Array.isArray(msg.estimates) ? msg.estimates.length : 0;
+	if (nTruth * nEst > limits.maxPairs) {
+		return fail(
+			'truth',
+			`${nTruth} objects × ${nEst} estimates = ${nTruth * nEst} pairs, at most ${limits.maxPairs}`
+		);
+	}
 	for (const k in msg) {
 		switch (k) {
 			case 'type':

@@ -2,6 +2,7 @@
  * Rows computed in the worker thread must be byte for byte the rows computed inline, and a failing worker
  * must fail the frames waiting for it, not lose them silently or hang.
  */
+import { existsSync, readdirSync, readFileSync } from 'node:fs';
 import { Packr } from 'msgpackr';
 import { afterAll, describe, expect, it } from 'vitest';
 import { defaultMetricSettings, type MetricSettings } from '$lib/metrics';
@@ -168,4 +169,116 @@ describe('RowPool', () => {
 		const again = await pool.prepare(runId, ctx, dims, { seq: 999, t: 1, raw: heavy(999) });
 		expect(again.metrics.n_truth).toBe(100);
 	});
+
+	describe(
+		'lanes: a run with expensive frames never holds up another run',
+		{ timeout: 60_000 },
+		() => {
+			const ctx: RowContext = {
+				stateFields: ['x', 'y', 'vx', 'vy'],
+				settings: defaultMetricSettings,
+				coords: 'world'
+			};
+			const rnd = seededRandom(77);
+			/** k truth objects and k estimates all within the cut-off of each other: one k × k GOSPA group */
+			const dense = (seq: number, k: number) => {
+				const truth = Array.from({ length: k }, () => ({ x: [rnd() * 5, rnd() * 5, 0, 0] }));
+				const estimates = truth.map((o) => ({ x: [o.x[0] + rnd(), o.x[1] + rnd(), 0, 0] }));
+				const frame = { type: 'frame', seq, t: 1 + seq, truth, estimates };
+				return { seq, t: 1 + seq, raw: packr.pack(frame), frame };
+			};
+			const light = (seq: number) => {
+				const f = frame(seq, rnd);
+				return {
+					seq,
+					t: f.t as number,
+					raw: packr.pack(f),
+					frame: fromMsgpack(packr.pack(f)) as Frame
+				};
+			};
+			const otherRun = '0b6f3a52-8a11-4c3e-9a55-4d2f1f0c7e02';
+			const thirdRun = '0b6f3a52-8a11-4c3e-9a55-4d2f1f0c7e03';
+
+			/** Starts both lanes' workers, so that booting them is not what the order below measures. */
+			async function warm(pool: RowPool) {
+				await Promise.all([
+					pool.prepare(runId, ctx, dims, dense(0, 60)),
+					pool.prepare(otherRun, ctx, dims, light(0))
+				]);
+			}
+
+			/**
+			 * One heavy frame of one run, and beside it an ordinary rig of another run: one frame at a time, the
+			 * next sent once the last is computed. Returns how many ordinary frames were done before the heavy one.
+			 */
+			async function ordinaryBeside(pool: RowPool, heavyFrame: ReturnType<typeof dense>) {
+				const log: string[] = [];
+				const heavy = pool.prepare(runId, ctx, dims, heavyFrame).then(() => log.push('heavy'));
+				for (let i = 1; i <= 30; i++) {
+					await pool.prepare(otherRun, ctx, dims, light(i));
+					log.push(`light ${i}`);
+				}
+				await heavy;
+				return log.indexOf('heavy');
+			}
+
+			it('computes an ordinary run’s frames while a heavy frame of another run is in work', async () => {
+				const pool = new RowPool(undefined, { heavyWorkers: 1 });
+				pools.push(pool);
+				await warm(pool);
+				// 600 × 600 objects in one group: about half a second of one core, far above the estimate bound
+				expect(await ordinaryBeside(pool, dense(1, 600))).toBe(30);
+			});
+
+			it('sends a run whose frames proved expensive to the heavy lane, even when the estimate missed', async () => {
+				// an estimate that never calls a frame heavy: only the measured time can
+				const pool = new RowPool(undefined, { heavyWorkers: 1, heavyNs: Infinity });
+				pools.push(pool);
+				await warm(pool);
+				// two frames in a row measured well over 20 ms
+				await pool.prepare(runId, ctx, dims, dense(1, 300));
+				await pool.prepare(runId, ctx, dims, dense(2, 300));
+				expect(await ordinaryBeside(pool, dense(3, 600))).toBe(30);
+			});
+
+			it.runIf(existsSync('/proc/thread-self'))(
+				'runs the heavy lane’s worker at the lowest CPU priority',
+				async () => {
+					// field 19 of /proc/<pid>/task/<tid>/stat is the thread's nice value
+					const nice = () =>
+						readdirSync('/proc/self/task').map((tid) =>
+							Number(
+								readFileSync(`/proc/self/task/${tid}/stat`, 'utf8').split(') ')[1].split(' ')[16]
+							)
+						);
+					const pool = new RowPool(undefined, { heavyWorkers: 1 });
+					pools.push(pool);
+					await pool.prepare(otherRun, ctx, dims, light(0)); // the shared worker
+					const before = nice().filter((v) => v === 19).length;
+					await pool.prepare(runId, ctx, dims, dense(1, 200)); // and the heavy lane's
+					expect(nice().filter((v) => v === 19).length).toBe(before + 1);
+					expect(nice().filter((v) => v !== 19 && v !== 0)).toEqual([]);
+				}
+			);
+
+			it('takes heavy runs in turn, one frame each, and matches the inline rows', async () => {
+				const pool = new RowPool(undefined, { heavyWorkers: 1 });
+				pools.push(pool);
+				await warm(pool);
+				const log: string[] = [];
+				const a = [1, 2, 3].map((seq) => {
+					const f = dense(seq, 250);
+					return pool.prepare(runId, ctx, dims, f).then((p) => (log.push(`a${seq}`), { f, p }));
+				});
+				const b = pool.prepare(thirdRun, ctx, dims, dense(1, 250)).then(() => log.push('b1'));
+				await Promise.all([...a, b]);
+				// a1 was already in work when b1 came; b1 then goes before a2 and a3
+				expect(log).toEqual(['a1', 'b1', 'a2', 'a3']);
+				for (const { f, p } of await Promise.all(a)) {
+					const row = frameRow(runId, { seq: f.seq, t: f.t, raw: f.raw, frame: f.frame }, ctx);
+					expect(Buffer.from(p.tuple)).toEqual(frameTuple(uuidBytes(runId), row));
+				}
+			});
+		}
+	);
 });
