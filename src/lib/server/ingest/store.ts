@@ -7,6 +7,7 @@ import type postgres from 'postgres';
 import { defaultMetricSettings, type MetricSettings } from '$lib/metrics';
 import type { IngestRunState, RunSpec } from '$lib/protocol/types';
 import type {
+	CommitOutcome,
 	FrameToStore,
 	IngestStore,
 	KeyResolution,
@@ -26,15 +27,12 @@ interface RunContext {
 	measurementFields: string[];
 	coords: 'world' | 'ego';
 	settings: MetricSettings;
+	/** runs.metric_settings as jsonb text ('' for none) when `settings` were read: tells a save apart */
+	settingsText: string;
 	keyId: string | null;
-	/** when settings were last read: they are re-read after SETTINGS_TTL_MS, so a settings save reaches live runs */
-	settingsReadAt: number;
 	/** 1 + the highest seq known stored or quarantined for the run; null when unknown */
 	committedNext: number | null;
 }
-
-/** How stale a live run's metric settings may get; the recompute job waits this long before it finishes. */
-export const SETTINGS_TTL_MS = 1000;
 
 interface RunRow {
 	id: string;
@@ -50,6 +48,14 @@ interface RunRow {
 	frame_count: string | number;
 	last_t: number | null;
 	metric_settings: MetricSettings | null;
+	/** metric_settings as jsonb text: equal settings have equal text */
+	settings_text: string | null;
+}
+
+/** A frame's row being computed, and the settings (as text) it is computed with. */
+interface Pending {
+	row: Promise<PreparedRow>;
+	settingsText: string;
 }
 
 function specOf(row: RunRow): RunSpec {
@@ -67,7 +73,7 @@ function specOf(row: RunRow): RunSpec {
 export class PostgresIngestStore implements IngestStore {
 	#sql: postgres.Sql;
 	#runs = new Map<string, RunContext>();
-	#prepared = new WeakMap<FrameToStore, Promise<PreparedRow>>();
+	#prepared = new WeakMap<FrameToStore, Pending>();
 	#pool: RowPool | null;
 	#metricColumns = process.env.INGEST_METRIC_COLUMNS !== 'off';
 
@@ -86,13 +92,24 @@ export class PostgresIngestStore implements IngestStore {
 	}
 
 	async openRun(req: OpenRunRequest): Promise<OpenRunResult> {
+		try {
+			return await this.#openRun(req);
+		} catch (err) {
+			// the open's content (validation should have caught it), not the database: answered as invalid_open
+			if (!refusedForContent(err)) throw err;
+			const message = err instanceof Error ? err.message : String(err);
+			return { ok: false, reason: `the database refused this open: ${message}` };
+		}
+	}
+
+	async #openRun(req: OpenRunRequest): Promise<OpenRunResult> {
 		const { spec } = req;
 		let row: RunRow | undefined;
 		let resumed = false;
 		if (req.clientRunId !== null) {
 			[row] = await this.#sql<
 				RunRow[]
-			>`select * from runs where rig_id = ${req.rig.rigId} and client_run_id = ${req.clientRunId}`;
+			>`select *, metric_settings::text as settings_text from runs where rig_id = ${req.rig.rigId} and client_run_id = ${req.clientRunId}`;
 			resumed = row !== undefined;
 		}
 		if (!row) {
@@ -102,13 +119,13 @@ export class PostgresIngestStore implements IngestStore {
 				        ${spec.coords ?? 'world'}, ${spec.units?.length ?? 'm'}, ${spec.tags ?? []}, ${spec.notes ?? ''}, 'live',
 				        ${JSON.stringify(defaultMetricSettings)}::text::jsonb)
 				on conflict (rig_id, client_run_id) do nothing
-				returning *`;
+				returning *, metric_settings::text as settings_text`;
 			row = inserted[0];
 			if (!row) {
 				// opened concurrently by another connection of the same rig
 				[row] = await this.#sql<
 					RunRow[]
-				>`select * from runs where rig_id = ${req.rig.rigId} and client_run_id = ${req.clientRunId}`;
+				>`select *, metric_settings::text as settings_text from runs where rig_id = ${req.rig.rigId} and client_run_id = ${req.clientRunId}`;
 				resumed = true;
 			}
 		}
@@ -119,8 +136,8 @@ export class PostgresIngestStore implements IngestStore {
 			measurementFields: row.measurement_fields,
 			coords: row.coords,
 			settings: row.metric_settings ?? defaultMetricSettings,
+			settingsText: row.settings_text ?? '',
 			keyId: req.rig.keyId,
-			settingsReadAt: Date.now(),
 			committedNext: Number(row.next_seq)
 		});
 		return {
@@ -138,23 +155,19 @@ export class PostgresIngestStore implements IngestStore {
 	async #context(runId: string): Promise<RunContext> {
 		let ctx = this.#runs.get(runId);
 		if (!ctx) {
-			const [row] = await this.#sql<RunRow[]>`select * from runs where id = ${runId}`;
+			const [row] = await this.#sql<
+				RunRow[]
+			>`select *, metric_settings::text as settings_text from runs where id = ${runId}`;
 			ctx = {
 				stateFields: row.state_fields,
 				measurementFields: row.measurement_fields,
 				coords: row.coords,
 				settings: row.metric_settings ?? defaultMetricSettings,
+				settingsText: row.settings_text ?? '',
 				keyId: null,
-				settingsReadAt: Date.now(),
 				committedNext: null
 			};
 			this.#runs.set(runId, ctx);
-		} else if (Date.now() - ctx.settingsReadAt > SETTINGS_TTL_MS) {
-			const [row] = await this.#sql<
-				Pick<RunRow, 'metric_settings'>[]
-			>`select metric_settings from runs where id = ${runId}`;
-			ctx.settings = row?.metric_settings ?? defaultMetricSettings;
-			ctx.settingsReadAt = Date.now();
 		}
 		return ctx;
 	}
@@ -163,7 +176,38 @@ export class PostgresIngestStore implements IngestStore {
 	prepareFrame(runId: string, frame: FrameToStore): void {
 		const ctx = this.#runs.get(runId);
 		if (ctx && !this.#prepared.has(frame))
-			this.#prepared.set(frame, this.#prepare(runId, frame, ctx));
+			this.#prepared.set(frame, {
+				row: this.#prepare(runId, frame, ctx),
+				settingsText: ctx.settingsText
+			});
+	}
+
+	/**
+	 * Inside a commit's transaction, before anything is written: locks the run's row, so a settings save
+	 * (saveSettings updates it) lands either wholly before this commit or after it, and recomputes the rows
+	 * prepared with settings a save has replaced. Every frame stored after a save is thus computed with what
+	 * it saved; the recompute job that follows the save covers every frame stored before.
+	 */
+	async #withCurrentSettings(
+		tx: postgres.TransactionSql,
+		runId: string,
+		ctx: RunContext,
+		frames: FrameToStore[],
+		prepared: PreparedRow[],
+		preparedWith: string[]
+	): Promise<void> {
+		const [row] = await tx<{ settings_text: string | null }[]>`
+			select metric_settings::text as settings_text from runs where id = ${runId} for no key update`;
+		const text = row?.settings_text ?? '';
+		if (text !== ctx.settingsText) {
+			ctx.settings = text === '' ? defaultMetricSettings : (JSON.parse(text) as MetricSettings);
+			ctx.settingsText = text;
+		}
+		for (let i = 0; i < frames.length; i++) {
+			if (preparedWith[i] === text) continue;
+			prepared[i] = await this.#prepare(runId, frames[i], ctx);
+			preparedWith[i] = text;
+		}
 	}
 
 	#prepare(runId: string, f: FrameToStore, ctx: RunContext): Promise<PreparedRow> {
@@ -194,16 +238,18 @@ export class PostgresIngestStore implements IngestStore {
 		runId: string,
 		frames: FrameToStore[],
 		quarantined: QuarantinedToStore[]
-	): Promise<void> {
-		if (frames.length === 0 && quarantined.length === 0) return;
+	): Promise<CommitOutcome> {
+		if (frames.length === 0 && quarantined.length === 0) return { refused: [] };
 		const ctx = await this.#context(runId);
-		const prepared = await Promise.all(
-			frames.map((f) => this.#prepared.get(f) ?? this.#prepare(runId, f, ctx))
+		const pending = frames.map(
+			(f) =>
+				this.#prepared.get(f) ?? {
+					row: this.#prepare(runId, f, ctx),
+					settingsText: ctx.settingsText
+				}
 		);
-		await ensurePartitionsFor(
-			this.#sql,
-			frames.map((f) => f.t)
-		);
+		const prepared = await Promise.all(pending.map((p) => p.row));
+		const preparedWith = pending.map((p) => p.settingsText);
 		let maxSeq = -1;
 		for (const f of frames) maxSeq = Math.max(maxSeq, f.seq);
 		for (const q of quarantined) maxSeq = Math.max(maxSeq, q.seq);
@@ -212,6 +258,7 @@ export class PostgresIngestStore implements IngestStore {
 
 		const commit = (viaCopy: boolean) =>
 			this.#sql.begin(async (tx) => {
+				await this.#withCurrentSettings(tx, runId, ctx, frames, prepared, preparedWith);
 				let stored = 0;
 				if (frames.length && viaCopy) {
 					await copyFrames(
@@ -220,38 +267,16 @@ export class PostgresIngestStore implements IngestStore {
 					);
 					stored = frames.length;
 				} else if (frames.length) {
-					const values = frames.map((f, i) => {
-						const r = rowOf(runId, f, prepared[i].metrics, prepared[i].cardinalitySd);
-						return { ...r, zones: r.zones === null ? null : tx.json(r.zones) };
-					});
+					const values = frames.map((f, i) => insertRow(tx, runId, f, prepared[i]));
 					const res = await tx`insert into frames ${tx(values)} on conflict do nothing`;
 					stored = res.count;
 				}
-				if (quarantined.length) {
-					await tx`insert into quarantine ${tx(
-						quarantined.map((q) => ({
-							run_id: runId,
-							seq: q.seq,
-							reason: q.reason,
-							raw: Buffer.from(q.raw.buffer, q.raw.byteOffset, q.raw.byteLength)
-						}))
-					)}`;
-				}
-				// the run's counters and the key's frame count in one round trip
-				await tx`
-					with run as (
-						update runs set
-							next_seq = greatest(next_seq, ${maxSeq + 1}),
-							frame_count = frame_count + ${stored},
-							quarantine_count = quarantine_count + ${quarantined.length},
-							first_t = coalesce(first_t, ${firstT}),
-							last_t = coalesce(${lastT}, last_t),
-							last_seen_at = now()
-						where id = ${runId}
-						returning id
-					)
-					update feed_keys set frames_received = frames_received + ${stored}
-					where id = ${ctx.keyId ?? null}::uuid and ${stored} > 0 and exists (select 1 from run)`;
+				await finishBatch(tx, runId, ctx.keyId, quarantined, {
+					nextSeq: maxSeq + 1,
+					stored,
+					firstT,
+					lastT
+				});
 			});
 		// COPY cannot skip rows that exist, and postgres.js leaves a failed COPY unsettled; so COPY only when
 		// none of these seqs can be stored yet: above what this store committed for the run (the normal case),
@@ -265,12 +290,83 @@ export class PostgresIngestStore implements IngestStore {
 			fresh = dup.n === 0;
 		}
 		try {
+			await ensurePartitionsFor(
+				this.#sql,
+				frames.map((f) => f.t)
+			);
 			await commit(fresh);
 			ctx.committedNext = Math.max(ctx.committedNext ?? 0, maxSeq + 1);
+			return { refused: [] };
 		} catch (err) {
 			ctx.committedNext = null; // the outcome is unknown: ask the database next time
-			throw err;
+			if (!refusedForContent(err) && !(err instanceof CopyIncomplete)) throw err;
+			// Something in the batch was refused for what it holds, or a COPY failed without saying why (postgres.js
+			// does not report COPY errors): store it frame by frame, so a frame the database refuses is quarantined
+			// with its reason instead of failing the batch, and being resent, forever.
+			const refused = await this.#commitOneByOne(
+				runId,
+				ctx,
+				frames,
+				prepared,
+				preparedWith,
+				quarantined
+			);
+			ctx.committedNext = maxSeq + 1;
+			return { refused };
 		}
+	}
+
+	/**
+	 * One transaction; each frame in its own savepoint. A frame the database refuses for its content is
+	 * quarantined (as its stored MessagePack) with the database's message; any other failure rejects it all.
+	 */
+	async #commitOneByOne(
+		runId: string,
+		ctx: RunContext,
+		frames: FrameToStore[],
+		prepared: PreparedRow[],
+		preparedWith: string[],
+		quarantined: QuarantinedToStore[]
+	): Promise<QuarantinedToStore[]> {
+		let maxSeq = -1;
+		for (const f of frames) maxSeq = Math.max(maxSeq, f.seq);
+		for (const q of quarantined) maxSeq = Math.max(maxSeq, q.seq);
+		return this.#sql.begin(async (tx) => {
+			await this.#withCurrentSettings(tx, runId, ctx, frames, prepared, preparedWith);
+			const refused: QuarantinedToStore[] = [];
+			let stored = 0;
+			let firstT: number | null = null;
+			let lastT: number | null = null;
+			for (let i = 0; i < frames.length; i++) {
+				const f = frames[i];
+				try {
+					const n = await tx.savepoint(async (sp) => {
+						await sp`select skein_ensure_frames_partition(${new Date(f.t * 1000)}::timestamptz)`;
+						const row = insertRow(sp, runId, f, prepared[i]);
+						return (await sp`insert into frames ${sp(row)} on conflict do nothing`).count;
+					});
+					stored += n;
+					firstT ??= f.t;
+					lastT = f.t;
+				} catch (err) {
+					if (!refusedForContent(err)) throw err;
+					const message = err instanceof Error ? err.message : String(err);
+					refused.push({
+						seq: f.seq,
+						raw: f.raw,
+						encoding: 'msgpack',
+						reason: `the database refused this frame: ${message}`
+					});
+				}
+			}
+			await finishBatch(tx, runId, ctx.keyId, [...quarantined, ...refused], {
+				nextSeq: maxSeq + 1,
+				stored,
+				firstT,
+				lastT
+			});
+			return refused;
+		});
 	}
 
 	async setRunState(runId: string, state: IngestRunState): Promise<void> {
@@ -290,6 +386,71 @@ export class PostgresIngestStore implements IngestStore {
 	}
 }
 
+/**
+ * Whether an error is about what a statement's data holds rather than the database being unavailable (then
+ * retrying cannot help). SQLSTATE classes (PostgreSQL documentation, Appendix A): 22 data exception (22021 a
+ * NUL in text, 22008 a timestamp out of range, 22P05 `\u0000` in jsonb…), 23 integrity constraint violation
+ * (23514: no partition holds the row) except 23505, a duplicate key, which a resend resolves; 54 program limit
+ * exceeded (a value too large to index). A RangeError is a value postgres.js could not serialise (an invalid Date).
+ */
+export function refusedForContent(err: unknown): boolean {
+	if (err instanceof RangeError) return true;
+	if (!(err instanceof Error) || err.name !== 'PostgresError' || !('code' in err)) return false;
+	const code = err.code;
+	return typeof code === 'string' && /^(22|23|54)[0-9A-Z]{3}$/.test(code) && code !== '23505';
+}
+
+/** Text PostgreSQL stores: NUL and unpaired surrogates written as \uXXXX (validation keeps them out of reasons). */
+function storableText(s: string): string {
+	return s.replace(
+		/\0|[\ud800-\udbff](?![\udc00-\udfff])|(?<![\ud800-\udbff])[\udc00-\udfff]/g,
+		(c) => `\\u${c.charCodeAt(0).toString(16).padStart(4, '0')}`
+	);
+}
+
+/** The batch's quarantined messages, the run's counters and the key's frame count (one round trip for the two). */
+async function finishBatch(
+	tx: postgres.TransactionSql,
+	runId: string,
+	keyId: string | null,
+	quarantined: QuarantinedToStore[],
+	c: { nextSeq: number; stored: number; firstT: number | null; lastT: number | null }
+): Promise<void> {
+	if (quarantined.length) {
+		await tx`insert into quarantine ${tx(
+			quarantined.map((q) => ({
+				run_id: runId,
+				seq: q.seq,
+				reason: storableText(q.reason),
+				raw: Buffer.from(q.raw.buffer, q.raw.byteOffset, q.raw.byteLength)
+			}))
+		)}`;
+	}
+	await tx`
+		with run as (
+			update runs set
+				next_seq = greatest(next_seq, ${c.nextSeq}),
+				frame_count = frame_count + ${c.stored},
+				quarantine_count = quarantine_count + ${quarantined.length},
+				first_t = coalesce(first_t, ${c.firstT}),
+				last_t = coalesce(${c.lastT}, last_t),
+				last_seen_at = now()
+			where id = ${runId}
+			returning id
+		)
+		update feed_keys set frames_received = frames_received + ${c.stored}
+		where id = ${keyId ?? null}::uuid and ${c.stored} > 0 and exists (select 1 from run)`;
+}
+
+/** A frame's row for an INSERT (zones as jsonb). */
+function insertRow(tx: postgres.TransactionSql, runId: string, f: FrameToStore, p: PreparedRow) {
+	const r = rowOf(runId, f, p.metrics, p.cardinalitySd);
+	return { ...r, zones: r.zones === null ? null : tx.json(r.zones) };
+}
+
+/** A COPY that did not complete in time: postgres.js does not report why, so the batch is retried row by row. */
+class CopyIncomplete extends Error {}
+
 const copyDeadlineMs = 10_000;
 
 async function copyFrames(tx: postgres.TransactionSql, tuples: Uint8Array[]): Promise<void> {
@@ -302,7 +463,7 @@ async function copyFrames(tx: postgres.TransactionSql, tuples: Uint8Array[]): Pr
 	try {
 		await new Promise<void>((resolve, reject) => {
 			timer = setTimeout(
-				() => reject(new Error('COPY into frames did not complete')),
+				() => reject(new CopyIncomplete('COPY into frames did not complete')),
 				copyDeadlineMs
 			);
 			stream.on('error', reject);
