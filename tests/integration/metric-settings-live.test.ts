@@ -1,0 +1,109 @@
+/**
+ * Zones saved on a live run reach every frame stored after the save, through the real settings form, the real
+ * socket and the real recompute job: the frames before the save are recomputed, those after are stored with the
+ * new settings by ingest itself (nothing recomputes them later).
+ *
+ * Zone occupancy: 1 − Π(1 − r_i P_i(inside)), an estimate without covariance counting P_i = 1 when inside
+ * (the definition tests/integration/metrics-api.test.ts checks), so one estimate with r = 0.8 inside gives 0.8.
+ */
+import { beforeAll, describe, expect, inject, it } from 'vitest';
+import { defaultMetricSettings } from '$lib/metrics';
+import { SkeinRigClient } from '$lib/protocol/client';
+import { sqlClient } from '$server/db';
+import { Browserish } from '../support/client';
+import { makePerson } from '../support/factories';
+import { makeRigWithKey } from '../support/rigs';
+
+let base: string;
+let engineer: Browserish;
+
+beforeAll(async () => {
+	base = inject('appUrl');
+	const p = await makePerson('engineer', 'live-zones');
+	engineer = new Browserish(base);
+	await engineer.signIn(p.email, p.password);
+});
+
+const run = { name: 'live zones', state_fields: ['x', 'y'], measurement_fields: ['x', 'y'] };
+const t0 = 1_790_200_000;
+const frame = (i: number) => ({
+	t: t0 + i * 0.05,
+	ego: { x: 0, y: 0, heading: 0 },
+	estimates: [{ id: 'e1', x: [10 + i * 0.01, 2], r: 0.8 }],
+	truth: [{ id: 't1', x: [10 + i * 0.01, 2.2] }]
+});
+
+/** The settings form as the page posts it: the defaults, and a world zone "kerb" around the estimate. */
+const form = {
+	c: '10',
+	p: '2',
+	distance: 'position',
+	nees: 'position',
+	motThreshold: '2',
+	weights: '',
+	zone_name: 'kerb',
+	zone_coords: 'world',
+	zone_xmin: '0',
+	zone_xmax: '100',
+	zone_ymin: '-10',
+	zone_ymax: '10',
+	zone_angle: ''
+};
+
+async function recomputeState(runId: string): Promise<string> {
+	const res = await engineer.json(`/api/runs/${runId}/settings`, 'GET');
+	return ((await res.json()) as { recompute: { state: string } }).recompute.state;
+}
+
+describe('zones saved on a live run', () => {
+	it('reach every frame stored after the save, mid-stream and after the recompute finished', async () => {
+		const rig = await makeRigWithKey('live-zones');
+		const client = new SkeinRigClient({
+			url: base.replace('http', 'ws') + '/ingest/v1',
+			key: rig.secret,
+			clientRunId: 'live-zones',
+			run
+		});
+		const { runId } = await client.start();
+		let i = 0;
+		for (; i < 40; i++) client.send(frame(i));
+		await client.flush();
+		const before = await sqlClient()<{ zones: Record<string, number> }[]>`
+			select zones from frames where run_id = ${runId} and seq = 0`;
+		expect(Object.keys(before[0].zones)).toEqual(defaultMetricSettings.zones.map((z) => z.name));
+
+		// save while frames keep coming, every 20 ms
+		const streaming = setInterval(() => client.send(frame(i++)), 20);
+		await new Promise((r) => setTimeout(r, 300));
+		const saved = await engineer.postForm(`/runs/${runId}/metrics?/settings`, form);
+		expect(saved.status).toBe(200);
+		await new Promise((r) => setTimeout(r, 300));
+		clearInterval(streaming);
+		await client.flush();
+
+		const deadline = Date.now() + 30_000;
+		let state = await recomputeState(runId);
+		while (state !== 'done') {
+			expect(state, 'the recompute').not.toBe('failed');
+			expect(Date.now(), `recompute still ${state}`).toBeLessThan(deadline);
+			await new Promise((r) => setTimeout(r, 100));
+			state = await recomputeState(runId);
+		}
+		// the recompute is over: whatever is stored from now on, only ingest computes
+		const afterRecompute = i;
+		for (const end = i + 30; i < end; i++) client.send(frame(i));
+		await client.flush();
+		await client.close();
+
+		const rows = await sqlClient()<{ seq: number; zones: Record<string, number> | null }[]>`
+			select seq::int, zones from frames where run_id = ${runId} order by seq`;
+		expect(rows).toHaveLength(i);
+		expect(afterRecompute).toBeGreaterThan(40);
+		const missing = rows.filter((r) => r.zones?.kerb === undefined).map((r) => r.seq);
+		expect(missing, 'frames without the saved zone').toEqual([]);
+		for (const r of rows) {
+			expect(r.zones?.kerb, `frame ${r.seq}`).toBeCloseTo(0.8, 12);
+			expect(Object.keys(r.zones ?? {}), `frame ${r.seq}: only the saved zone`).toEqual(['kerb']);
+		}
+	});
+});
