@@ -203,11 +203,12 @@ export class PostgresIngestStore implements IngestStore {
 			ctx.settings = text === '' ? defaultMetricSettings : (JSON.parse(text) as MetricSettings);
 			ctx.settingsText = text;
 		}
-		for (let i = 0; i < frames.length; i++) {
-			if (preparedWith[i] === text) continue;
-			prepared[i] = await this.#prepare(runId, frames[i], ctx);
+		const stale = frames.flatMap((_, i) => (preparedWith[i] === text ? [] : [i]));
+		const again = await Promise.all(stale.map((i) => this.#prepare(runId, frames[i], ctx)));
+		stale.forEach((i, k) => {
+			prepared[i] = again[k];
 			preparedWith[i] = text;
-		}
+		});
 	}
 
 	#prepare(runId: string, f: FrameToStore, ctx: RunContext): Promise<PreparedRow> {
