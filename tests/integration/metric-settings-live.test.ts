@@ -34,7 +34,7 @@ const frame = (i: number) => ({
 });
 
 /** The settings form as the page posts it: the defaults, and a world zone "kerb" around the estimate. */
-const form = {
+const formFields = {
 	c: '10',
 	p: '2',
 	distance: 'position',
@@ -50,6 +50,18 @@ const form = {
 	zone_angle: ''
 };
 
+async function liveRun(tag: string) {
+	const rig = await makeRigWithKey(tag);
+	const client = new SkeinRigClient({
+		url: base.replace('http', 'ws') + '/ingest/v1',
+		key: rig.secret,
+		clientRunId: tag,
+		run
+	});
+	const { runId } = await client.start();
+	return { client, runId };
+}
+
 async function recomputeState(runId: string): Promise<string> {
 	const res = await engineer.json(`/api/runs/${runId}/settings`, 'GET');
 	return ((await res.json()) as { recompute: { state: string } }).recompute.state;
@@ -57,14 +69,7 @@ async function recomputeState(runId: string): Promise<string> {
 
 describe('zones saved on a live run', () => {
 	it('reach every frame stored after the save, mid-stream and after the recompute finished', async () => {
-		const rig = await makeRigWithKey('live-zones');
-		const client = new SkeinRigClient({
-			url: base.replace('http', 'ws') + '/ingest/v1',
-			key: rig.secret,
-			clientRunId: 'live-zones',
-			run
-		});
-		const { runId } = await client.start();
+		const { client, runId } = await liveRun('live-zones');
 		let i = 0;
 		for (; i < 40; i++) client.send(frame(i));
 		await client.flush();
@@ -75,7 +80,7 @@ describe('zones saved on a live run', () => {
 		// save while frames keep coming, every 20 ms
 		const streaming = setInterval(() => client.send(frame(i++)), 20);
 		await new Promise((r) => setTimeout(r, 300));
-		const saved = await engineer.postForm(`/runs/${runId}/metrics?/settings`, form);
+		const saved = await engineer.postForm(`/runs/${runId}/metrics?/settings`, formFields);
 		expect(saved.status).toBe(200);
 		await new Promise((r) => setTimeout(r, 300));
 		clearInterval(streaming);
@@ -105,5 +110,34 @@ describe('zones saved on a live run', () => {
 			expect(r.zones?.kerb, `frame ${r.seq}`).toBeCloseTo(0.8, 12);
 			expect(Object.keys(r.zones ?? {}), `frame ${r.seq}: only the saved zone`).toEqual(['kerb']);
 		}
+	});
+
+	it('refuses a zone name the database cannot store with 422 naming the field, and keeps the settings', async () => {
+		const { client, runId } = await liveRun('zone-name');
+		client.send(frame(0));
+		await client.close();
+		for (const name of ['ke\0rb', 'kerb\ud800']) {
+			const settings = {
+				...defaultMetricSettings,
+				zones: [{ name, coords: 'world', x: [0, 10], y: [-1, 1] }]
+			};
+			const res = await engineer.json(`/api/runs/${runId}/settings`, 'PUT', settings);
+			expect(res.status, JSON.stringify(name)).toBe(422);
+			const body = (await res.json()) as { error: { details?: Record<string, string> } };
+			expect(Object.keys(body.error.details ?? {}), JSON.stringify(name)).toContain('zones.0.name');
+			// a form cannot carry an unpaired surrogate (it is sent as U+FFFD), a NUL it can
+			if (name.includes('\ud800')) continue;
+			const form = await engineer.postForm(`/runs/${runId}/metrics?/settings`, {
+				...formFields,
+				zone_name: name
+			});
+			expect(form.status, JSON.stringify(name)).toBe(400);
+			const html = await form.text();
+			expect(html).toContain('data-field-error="zones.0"');
+			expect(html).toContain('name: contains a');
+		}
+		const [row] = await sqlClient()<{ metric_settings: unknown }[]>`
+			select metric_settings from runs where id = ${runId}`;
+		expect(row.metric_settings).toEqual(defaultMetricSettings);
 	});
 });

@@ -106,7 +106,7 @@ function isLowSurrogate(c: number): boolean {
  * Why a string is not text the database stores (PostgreSQL's text refuses U+0000; its jsonb refuses
  * `\u0000` and unpaired surrogates), or null when it is.
  */
-function textProblem(v: string): string | null {
+export function textProblem(v: string): string | null {
 	for (let i = 0; i < v.length; i++) {
 		const c = v.charCodeAt(i);
 		if (c === 0) return `contains a NUL character (U+0000) at index ${i}`;
