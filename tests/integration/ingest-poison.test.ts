@@ -268,6 +268,48 @@ describe('opens the database would refuse', () => {
 });
 
 describe('a frame refused by the database that validation did not foresee', () => {
+	it('over the socket: quarantined with the database reason, answered invalid_frame, and the run goes on', async () => {
+		const r = await connect();
+		r.send({ type: 'open', client_run_id: 'unforeseen', run }, 'msgpack');
+		const runId = (await r.next('opened', (m) => m.type === 'opened')).run_id as string;
+		expect(runId).toMatch(/^[0-9a-f-]{36}$/);
+		// A rule of the database no validation knows: this run's frames may not hold exactly 3 truth objects.
+		const sql = sqlClient();
+		await sql.unsafe(
+			`alter table frames add constraint poison_test_three_truths check (run_id <> '${runId}' or n_truth is distinct from 3)`
+		);
+		try {
+			const truth = (n: number) => Array.from({ length: n }, (_, k) => ({ x: [k, 1] }));
+			for (const [seq, n] of [
+				[0, 1],
+				[1, 3],
+				[2, 2]
+			])
+				r.send({ type: 'frame', seq, t: t0 + seq * 0.05, truth: truth(n) }, 'msgpack');
+			const err = await r.next('invalid_frame for seq 1', (m) => m.type === 'error');
+			expect(err).toMatchObject({ code: 'invalid_frame', seq: 1 });
+			expect(err.message).toMatch(
+				/^the database refused this frame: .*violates check constraint "poison_test_three_truths"/
+			);
+			await r.next('ack of 2', (m) => m.type === 'ack' && m.seq === 2);
+			r.send({ type: 'frame', seq: 3, t: t0 + 0.2, truth: truth(1) }, 'json');
+			await r.next('ack of 3', (m) => m.type === 'ack' && m.seq === 3);
+			r.send({ type: 'close' }, 'json');
+			expect(await r.next('closed', (m) => m.type === 'closed')).toMatchObject({ frames: 3 });
+		} finally {
+			await sql.unsafe('alter table frames drop constraint if exists poison_test_three_truths');
+		}
+		expect(r.closed?.code ?? 1000).toBe(1000);
+		const frames = await sql<{ seq: number }[]>`
+			select seq::int from frames where run_id = ${runId} order by seq`;
+		expect(frames.map((f) => f.seq)).toEqual([0, 2, 3]);
+		const q = await sql<{ seq: number; reason: string }[]>`
+			select seq::int, reason from quarantine where run_id = ${runId}`;
+		expect(q).toHaveLength(1);
+		expect(q[0].seq).toBe(1);
+		expect(q[0].reason).toMatch(/^the database refused this frame: /);
+	});
+
 	it('is quarantined with the database reason in the same commit, and the other frames are stored', async () => {
 		// the store's safety net, below validation: frames handed to it straight, as the session would
 		const rig = await makeRigWithKey('safety-net');
