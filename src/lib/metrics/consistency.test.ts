@@ -2,6 +2,8 @@ import { describe, expect, it } from 'vitest';
 import { DEFAULT_LIMITS } from '../protocol/limits';
 import { validateFrame } from '../protocol/validate';
 import { nees, neesBounds, neesVerdict, subBlock } from './consistency';
+import { frameMetrics } from './frame';
+import { defaultMetricSettings } from './settings';
 import { normalSource, seededRandom } from './random';
 
 describe('nees', () => {
@@ -32,6 +34,16 @@ describe('nees', () => {
 		expect(symmetricPartNees).toBeCloseTo(0.3538461787, 10);
 		expect(nees([0.4, -0.3], [1, 0.3, 0.3000001, 1])).toBeCloseTo(symmetricPartNees, 14);
 		expect(nees([0.4, -0.3], [1, 0.3, 0.3, 1])).toBeCloseTo(0.322 / 0.91, 14);
+		// and the frame's figures count it: one NEES sample, that value
+		const m = frameMetrics(
+			{
+				estimates: [{ x: [0.4, -0.3], P: [1, 0.3, 0.3000001, 1] }],
+				truth: [{ x: [0, 0] }]
+			},
+			{ stateFields: ['x', 'y'], settings: { ...defaultMetricSettings, zones: [] } }
+		);
+		expect(m.nees_count).toBe(1);
+		expect(m.nees_mean).toBeCloseTo(symmetricPartNees, 14);
 	});
 
 	it('uses the tolerance ingest validates with: a NEES exactly where the protocol accepts P', () => {
