@@ -9,7 +9,10 @@
 import { beforeAll, describe, expect, inject, it } from 'vitest';
 import { defaultMetricSettings } from '$lib/metrics';
 import { SkeinRigClient } from '$lib/protocol/client';
+import { toMsgpack } from '$lib/protocol/codec';
 import { sqlClient } from '$server/db';
+import { PostgresIngestStore } from '$server/ingest/store';
+import { saveSettings } from '$server/metrics/settings';
 import { Browserish } from '../support/client';
 import { makePerson } from '../support/factories';
 import { makeRigWithKey } from '../support/rigs';
@@ -139,5 +142,35 @@ describe('zones saved on a live run', () => {
 		const [row] = await sqlClient()<{ metric_settings: unknown }[]>`
 			select metric_settings from runs where id = ${runId}`;
 		expect(row.metric_settings).toEqual(defaultMetricSettings);
+	});
+
+	it('stores rows computed before a save, and committed after it, computed again with the saved settings', async () => {
+		// in the store itself: frames prepared (metrics computed) with the old settings, then the save commits,
+		// then the batch commits; it must not store what was computed before the save
+		const rig = await makeRigWithKey('prepared-before');
+		const store = new PostgresIngestStore(sqlClient(), false);
+		const opened = await store.openRun({
+			rig: { rigId: rig.rigId, keyId: rig.keyId },
+			clientRunId: 'prepared-before',
+			spec: run
+		});
+		if (!opened.ok) throw new Error(opened.reason);
+		const batch = [0, 1, 2].map((seq) => {
+			const f = { seq, ...frame(seq) };
+			return { seq, t: f.t, frame: f, decoded: f, raw: toMsgpack({ type: 'frame', ...f }) };
+		});
+		for (const f of batch) store.prepareFrame(opened.runId, f);
+		const kerb = { name: 'kerb', coords: 'world' as const, x: [0, 100], y: [-10, 10] };
+		await saveSettings(opened.runId, { ...defaultMetricSettings, zones: [kerb] });
+		await store.commitFrames(opened.runId, batch, []);
+		const rows = await sqlClient()<{ zones: Record<string, number> }[]>`
+			select zones from frames where run_id = ${opened.runId} order by seq`;
+		expect(rows.map((r) => r.zones)).toEqual([{ kerb: 0.8 }, { kerb: 0.8 }, { kerb: 0.8 }]);
+		// and live viewers get the metrics that were stored
+		expect(batch.map((f) => f.metrics?.zones)).toEqual([
+			{ kerb: 0.8 },
+			{ kerb: 0.8 },
+			{ kerb: 0.8 }
+		]);
 	});
 });

@@ -183,10 +183,12 @@ export class PostgresIngestStore implements IngestStore {
 	}
 
 	/**
-	 * Inside a commit's transaction, before anything is written: locks the run's row, so a settings save
-	 * (saveSettings updates it) lands either wholly before this commit or after it, and recomputes the rows
-	 * prepared with settings a save has replaced. Every frame stored after a save is thus computed with what
-	 * it saved; the recompute job that follows the save covers every frame stored before.
+	 * Inside a commit's transaction, before anything is written: locks the run's row and recomputes the rows
+	 * prepared with settings a save has replaced since. A settings save (saveSettings updates the same row)
+	 * thus lands wholly before a commit or after it: every frame stored after a save is computed with what it
+	 * saved, and the recompute job that follows the save covers every frame stored before. The usual commit
+	 * skips this round trip: its counters' update takes the lock at the end and returns the settings, and a
+	 * commit whose rows turn out computed with replaced settings rolls back and is made again through here.
 	 */
 	async #withCurrentSettings(
 		tx: postgres.TransactionSql,
@@ -257,9 +259,12 @@ export class PostgresIngestStore implements IngestStore {
 		const lastT = frames.length ? frames[frames.length - 1].t : null;
 		const firstT = frames.length ? frames[0].t : null;
 
-		const commit = (viaCopy: boolean) =>
+		// `lockFirst`: read the settings under the run's row lock before writing; otherwise they are checked at
+		// the end, by the counters' update (which takes the same lock), and a save in between rolls back
+		const commit = (viaCopy: boolean, lockFirst: boolean) =>
 			this.#sql.begin(async (tx) => {
-				await this.#withCurrentSettings(tx, runId, ctx, frames, prepared, preparedWith);
+				if (lockFirst)
+					await this.#withCurrentSettings(tx, runId, ctx, frames, prepared, preparedWith);
 				let stored = 0;
 				if (frames.length && viaCopy) {
 					await copyFrames(
@@ -272,12 +277,13 @@ export class PostgresIngestStore implements IngestStore {
 					const res = await tx`insert into frames ${tx(values)} on conflict do nothing`;
 					stored = res.count;
 				}
-				await finishBatch(tx, runId, ctx.keyId, quarantined, {
+				const settingsText = await finishBatch(tx, runId, ctx.keyId, quarantined, {
 					nextSeq: maxSeq + 1,
 					stored,
 					firstT,
 					lastT
 				});
+				if (preparedWith.some((t) => t !== settingsText)) throw new SettingsSaved();
 			});
 		// COPY cannot skip rows that exist, and postgres.js leaves a failed COPY unsettled; so COPY only when
 		// none of these seqs can be stored yet: above what this store committed for the run (the normal case),
@@ -295,7 +301,10 @@ export class PostgresIngestStore implements IngestStore {
 				this.#sql,
 				frames.map((f) => f.t)
 			);
-			await commit(fresh);
+			await commit(fresh, false).catch((err: unknown) => {
+				if (!(err instanceof SettingsSaved)) throw err;
+				return commit(fresh, true);
+			});
 			ctx.committedNext = Math.max(ctx.committedNext ?? 0, maxSeq + 1);
 			return { refused: [] };
 		} catch (err) {
@@ -409,14 +418,17 @@ function storableText(s: string): string {
 	);
 }
 
-/** The batch's quarantined messages, the run's counters and the key's frame count (one round trip for the two). */
+/**
+ * The batch's quarantined messages, the run's counters and the key's frame count (one round trip for the two);
+ * returns the run's metric settings as jsonb text ('' for none), read under the row lock the update takes.
+ */
 async function finishBatch(
 	tx: postgres.TransactionSql,
 	runId: string,
 	keyId: string | null,
 	quarantined: QuarantinedToStore[],
 	c: { nextSeq: number; stored: number; firstT: number | null; lastT: number | null }
-): Promise<void> {
+): Promise<string> {
 	if (quarantined.length) {
 		await tx`insert into quarantine ${tx(
 			quarantined.map((q) => ({
@@ -427,7 +439,8 @@ async function finishBatch(
 			}))
 		)}`;
 	}
-	await tx`
+	// a data-modifying WITH runs whether or not the main query reads it
+	const [run] = await tx<{ settings_text: string | null }[]>`
 		with run as (
 			update runs set
 				next_seq = greatest(next_seq, ${c.nextSeq}),
@@ -437,10 +450,13 @@ async function finishBatch(
 				last_t = coalesce(${c.lastT}, last_t),
 				last_seen_at = now()
 			where id = ${runId}
-			returning id
+			returning metric_settings::text as settings_text
+		), key as (
+			update feed_keys set frames_received = frames_received + ${c.stored}
+			where id = ${keyId ?? null}::uuid and ${c.stored} > 0 and exists (select 1 from run)
 		)
-		update feed_keys set frames_received = frames_received + ${c.stored}
-		where id = ${keyId ?? null}::uuid and ${c.stored} > 0 and exists (select 1 from run)`;
+		select settings_text from run`;
+	return run?.settings_text ?? '';
 }
 
 /** A frame's row for an INSERT (zones as jsonb). */
@@ -448,6 +464,9 @@ function insertRow(tx: postgres.TransactionSql, runId: string, f: FrameToStore, 
 	const r = rowOf(runId, f, p.metrics, p.cardinalitySd);
 	return { ...r, zones: r.zones === null ? null : tx.json(r.zones) };
 }
+
+/** The run's metric settings were saved while a commit's rows were computed with the ones before. */
+class SettingsSaved extends Error {}
 
 /** A COPY that did not complete in time: postgres.js does not report why, so the batch is retried row by row. */
 class CopyIncomplete extends Error {}
