@@ -7,7 +7,7 @@
  * (the definition tests/integration/metrics-api.test.ts checks), so one estimate with r = 0.8 inside gives 0.8.
  */
 import { beforeAll, describe, expect, inject, it } from 'vitest';
-import { defaultMetricSettings } from '$lib/metrics';
+import { defaultMetricSettings, type Zone } from '$lib/metrics';
 import { SkeinRigClient } from '$lib/protocol/client';
 import { toMsgpack } from '$lib/protocol/codec';
 import { sqlClient } from '$server/db';
@@ -15,6 +15,7 @@ import { PostgresIngestStore } from '$server/ingest/store';
 import { saveSettings } from '$server/metrics/settings';
 import { Browserish } from '../support/client';
 import { makePerson } from '../support/factories';
+import type { FrameToStore } from '../../server-ws/ingest/store';
 import { makeRigWithKey } from '../support/rigs';
 
 let base: string;
@@ -155,12 +156,12 @@ describe('zones saved on a live run', () => {
 			spec: run
 		});
 		if (!opened.ok) throw new Error(opened.reason);
-		const batch = [0, 1, 2].map((seq) => {
+		const batch = [0, 1, 2].map((seq): FrameToStore => {
 			const f = { seq, ...frame(seq) };
 			return { seq, t: f.t, frame: f, decoded: f, raw: toMsgpack({ type: 'frame', ...f }) };
 		});
 		for (const f of batch) store.prepareFrame(opened.runId, f);
-		const kerb = { name: 'kerb', coords: 'world' as const, x: [0, 100], y: [-10, 10] };
+		const kerb: Zone = { name: 'kerb', coords: 'world', x: [0, 100], y: [-10, 10] };
 		await saveSettings(opened.runId, { ...defaultMetricSettings, zones: [kerb] });
 		await store.commitFrames(opened.runId, batch, []);
 		const rows = await sqlClient()<{ zones: Record<string, number> }[]>`
