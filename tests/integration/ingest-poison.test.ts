@@ -350,6 +350,33 @@ describe('a frame refused by the database that validation did not foresee', () =
 		expect(counts).toEqual({ frame_count: 3, quarantine_count: 3, next_seq: 6 });
 	});
 
+	it('an open the database refuses for its content is answered invalid_open with its reason', async () => {
+		// runs are opened through Drizzle, which wraps the database's error: the reason is still the database's
+		const rig = await makeRigWithKey('open-net');
+		const store = new PostgresIngestStore(sqlClient(), false);
+		const sql = sqlClient();
+		await sql.unsafe(
+			`alter table runs add constraint poison_test_open check (rig_id <> '${rig.rigId}' or name <> 'refused')`
+		);
+		try {
+			const refused = await store.openRun({
+				rig: { rigId: rig.rigId, keyId: rig.keyId },
+				clientRunId: 'open-net',
+				spec: { ...run, name: 'refused' }
+			});
+			expect(refused.ok).toBe(false);
+			if (refused.ok) return;
+			expect(refused.reason).toMatch(
+				/^the database refused this open: .*violates check constraint "poison_test_open"$/
+			);
+			expect(refused.reason).not.toContain('insert into');
+		} finally {
+			await sql.unsafe('alter table runs drop constraint if exists poison_test_open');
+		}
+		const runs = await sql`select id from runs where rig_id = ${rig.rigId}`;
+		expect(runs).toHaveLength(0);
+	});
+
 	it('tells a refusal for content from an unavailable database, on real errors', async () => {
 		const sql = sqlClient();
 		const caught = async (p: Promise<unknown>) =>

@@ -11,7 +11,7 @@ import { copyHeader, copyTrailer, frameCopyColumns } from './copy-binary';
 import { rowOf } from './frame-rows';
 import { ensurePartitionsFor } from './partitions';
 import type { RowFor } from './prepare';
-import { refusedForContent, storableText } from './refused';
+import { refusalReason, refusedForContent, storableText } from './refused';
 import type { PreparedRow } from './row-pool';
 import { adoptSettings, type RunContext } from './run-cache';
 
@@ -147,12 +147,11 @@ async function commitOneByOne(sql: postgres.Sql, batch: Batch): Promise<Quaranti
 				lastT = f.t;
 			} catch (err) {
 				if (!refusedForContent(err)) throw err;
-				const message = err instanceof Error ? err.message : String(err);
 				refused.push({
 					seq: f.seq,
 					raw: f.raw,
 					encoding: 'msgpack',
-					reason: `the database refused this frame: ${message}`
+					reason: `the database refused this frame: ${refusalReason(err)}`
 				});
 			}
 		}

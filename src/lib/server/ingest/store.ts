@@ -21,7 +21,7 @@ import { sqlClient } from '$server/db';
 import { openStreamedRun, setStreamedRunState } from '$server/runs/streamed';
 import { commitBatch } from './commit';
 import { RowPreparer } from './prepare';
-import { refusedForContent } from './refused';
+import { refusalReason, refusedForContent } from './refused';
 import { RunCache } from './run-cache';
 
 function specOf(run: Run): RunSpec {
@@ -63,8 +63,7 @@ export class PostgresIngestStore implements IngestStore {
 		} catch (err) {
 			// the open's content (validation should have caught it), not the database: answered as invalid_open
 			if (!refusedForContent(err)) throw err;
-			const message = err instanceof Error ? err.message : String(err);
-			return { ok: false, reason: `the database refused this open: ${message}` };
+			return { ok: false, reason: `the database refused this open: ${refusalReason(err)}` };
 		}
 		const { run, resumed, settingsText } = opened;
 		if (run.status === 'imported')
