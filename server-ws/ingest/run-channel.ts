@@ -28,6 +28,8 @@ export interface ChannelListener {
 	committed(seq: number): void;
 	/** storage failed; the connection must close so the rig resumes from the stored state */
 	storageFailed(): void;
+	/** a frame the database refused for its content was quarantined instead (its seq is acknowledged) */
+	refused?(entry: QuarantinedToStore): void;
 }
 
 export class RunChannel {
@@ -124,13 +126,23 @@ export class RunChannel {
 		const last = this.expected - 1;
 		this.#committing = true;
 		this.#deps.store.commitFrames(this.runId, frames, quarantined).then(
-			() => {
+			(outcome) => {
 				this.#committing = false;
+				const refused = outcome?.refused ?? [];
+				let storedFrames = frames;
+				if (refused.length > 0) {
+					const seqs = new Set(refused.map((q) => q.seq));
+					storedFrames = frames.filter((f) => !seqs.has(f.seq));
+				}
 				this.committedNext = last + 1;
-				this.frames += frames.length;
-				if (frames.length > 0) this.#committedLastT = frames[frames.length - 1].t;
+				this.frames += storedFrames.length;
+				if (storedFrames.length > 0) this.#committedLastT = storedFrames[storedFrames.length - 1].t;
+				// a refused frame's t does not count, as for any quarantined frame
+				if (refused.length > 0 && this.#pendingFrames.length === 0)
+					this.lastT = this.#committedLastT;
+				for (const q of refused) this.listener?.refused?.(q);
 				this.listener?.committed(last);
-				this.#publishCommitted(frames, quarantined);
+				this.#publishCommitted(storedFrames, [...quarantined, ...refused]);
 				this.#pump();
 			},
 			(error: unknown) => {

@@ -17,7 +17,7 @@ import {
 import { readFrame } from '../../src/lib/protocol/frame-reader';
 import { formatIssue, readSeq, validateFrame, validateOpen } from '../../src/lib/protocol/validate';
 import { RunChannel, type ChannelDeps, type ChannelListener } from './run-channel';
-import type { RigRef } from '../../src/lib/server/ingest/contract';
+import type { QuarantinedToStore, RigRef } from '../../src/lib/server/ingest/contract';
 
 export interface SessionTransport {
 	send(data: Uint8Array | string): void;
@@ -320,6 +320,11 @@ export class IngestSession implements ChannelListener {
 
 	storageFailed(): void {
 		this.end(CloseCode.internalError, 'storage unavailable');
+	}
+
+	refused(entry: QuarantinedToStore): void {
+		if (this.#state === 'open' || this.#state === 'closing')
+			this.#sendError(this.#ackEncoding, 'invalid_frame', entry.reason, entry.seq);
 	}
 
 	#ackTick(): void {

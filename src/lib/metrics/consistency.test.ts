@@ -1,5 +1,9 @@
 import { describe, expect, it } from 'vitest';
+import { DEFAULT_LIMITS } from '../protocol/limits';
+import { validateFrame } from '../protocol/validate';
 import { nees, neesBounds, neesVerdict, subBlock } from './consistency';
+import { frameMetrics } from './frame';
+import { defaultMetricSettings } from './settings';
 import { seededNormal } from '../random';
 
 describe('nees', () => {
@@ -15,6 +19,54 @@ describe('nees', () => {
 		expect(nees([1, 1], [1, 0.5, 0, 1])).toBeNull();
 		expect(nees([1], [0])).toBeNull();
 		expect(nees([1, 1], [1, 0, 0])).toBeNull();
+	});
+
+	it('gives a NEES to a covariance the protocol accepts as symmetric, from its symmetric part', () => {
+		// Worked check: e = (0.4, −0.3), P = [[1, 0.3], [0.3000001, 1]] (asymmetry 1e-7 relative, within the
+		// protocol's 1e-6). Symmetric part S = [[a, b], [b, a]] with a = 1, b = (0.3 + 0.3000001)/2 = 0.30000005.
+		// Closed-form 2×2 inverse: S⁻¹ = [[a, −b], [−b, a]] / (a² − b²), so
+		//   NEES = (a·e₁² − 2b·e₁·e₂ + a·e₂²) / (a² − b²) = (0.25 + 0.24·b) / (1 − b²)
+		//        = 0.322000012 / 0.9099999699999975 = 0.35384617870 (to 11 digits).
+		// (With b = 0.3 exactly the same formula gives 0.322 / 0.91 = 0.3538461538…, the figure the issue
+		// quotes; the asymmetry moves NEES by 2.5e-8.)
+		const b = (0.3 + 0.3000001) / 2;
+		const symmetricPartNees = (0.25 + 0.24 * b) / (1 - b * b);
+		expect(symmetricPartNees).toBeCloseTo(0.3538461787, 10);
+		expect(nees([0.4, -0.3], [1, 0.3, 0.3000001, 1])).toBeCloseTo(symmetricPartNees, 14);
+		expect(nees([0.4, -0.3], [1, 0.3, 0.3, 1])).toBeCloseTo(0.322 / 0.91, 14);
+		// and the frame's figures count it: one NEES sample, that value
+		const m = frameMetrics(
+			{
+				estimates: [{ x: [0.4, -0.3], P: [1, 0.3, 0.3000001, 1] }],
+				truth: [{ x: [0, 0] }]
+			},
+			{ stateFields: ['x', 'y'], settings: { ...defaultMetricSettings, zones: [] } }
+		);
+		expect(m.nees_count).toBe(1);
+		expect(m.nees_mean).toBeCloseTo(symmetricPartNees, 14);
+	});
+
+	it('uses the tolerance ingest validates with: a NEES exactly where the protocol accepts P', () => {
+		const tol = DEFAULT_LIMITS.symmetryTolerance;
+		const dims = { stateDim: 2, measDim: 2 };
+		// scale = max(|P01|, |P10|, √(P00·P11)) = 1, so the edge is an off-diagonal difference of 1e-6
+		for (const [delta, accepted] of [
+			[0, true],
+			[0.5 * tol, true],
+			[0.999 * tol, true],
+			[1.001 * tol, false],
+			[2 * tol, false]
+		] as const) {
+			const P = [1, 0.3, 0.3 + delta, 1];
+			const frame = { type: 'frame', seq: 0, t: 1, estimates: [{ x: [0.4, -0.3], P }] };
+			expect(validateFrame(frame, dims).ok, `delta ${delta}`).toBe(accepted);
+			const v = nees([0.4, -0.3], P);
+			expect(v !== null, `delta ${delta}`).toBe(accepted);
+			if (v !== null) {
+				const m = 0.3 + delta / 2;
+				expect(v).toBeCloseTo((0.25 + 0.24 * m) / (1 - m * m), 12);
+			}
+		}
 	});
 
 	it('extracts the position block of a full state covariance', () => {

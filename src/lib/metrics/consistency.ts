@@ -3,24 +3,27 @@
  * (Y. Bar-Shalom, X. R. Li, T. Kirubarajan, Estimation with Applications to Tracking and
  * Navigation, Wiley 2001, ch. 5.4).
  */
+import { DEFAULT_LIMITS } from '../protocol/limits';
+import { asymmetricAt } from '../protocol/validate';
 import { chiSquareQuantile } from './special';
 
-/** eᵀ P⁻¹ e through a Cholesky factor; null when P is not symmetric positive definite. */
-export function nees(error: ArrayLike<number>, cov: ArrayLike<number>): number | null {
+/**
+ * eᵀ P⁻¹ e through a Cholesky factor of P's symmetric part (P + Pᵀ)/2; null when P is not symmetric within
+ * the protocol's tolerance (the one ingest accepts, so every covariance a frame may carry gets a NEES)
+ * or its symmetric part is not positive definite.
+ */
+export function nees(
+	error: ArrayLike<number>,
+	cov: ArrayLike<number>,
+	symmetryTolerance: number = DEFAULT_LIMITS.symmetryTolerance
+): number | null {
 	const n = error.length;
 	if (cov.length !== n * n || n === 0) return null;
+	if (asymmetricAt(cov, n, symmetryTolerance) >= 0) return null;
 	const L = new Float64Array(n * n);
 	for (let i = 0; i < n; i++) {
 		for (let j = 0; j <= i; j++) {
-			if (
-				!(
-					Math.abs(cov[i * n + j] - cov[j * n + i]) <=
-					1e-9 * (Math.abs(cov[i * n + j]) + Math.abs(cov[j * n + i])) + 1e-300
-				)
-			) {
-				return null;
-			}
-			let s = cov[i * n + j];
+			let s = i === j ? cov[i * n + i] : (cov[i * n + j] + cov[j * n + i]) / 2;
 			for (let k = 0; k < j; k++) s -= L[i * n + k] * L[j * n + k];
 			if (i === j) {
 				if (!(s > 0)) return null;

@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { textProblem } from '../protocol/validate';
 import { COORDS } from '../runs';
 import { DEFAULT_MOT_THRESHOLD } from './tracks';
 import type { Zone } from './zones';
@@ -48,7 +49,16 @@ const interval = z
 	.refine(([lo, hi]) => lo < hi, { message: 'min must be below max' });
 
 export const zoneSchema = z.object({
-	name: z.string().trim().min(1).max(64),
+	// zone names are keys of the frames' zones (jsonb): text jsonb stores, as everything ingest stores
+	name: z
+		.string()
+		.trim()
+		.min(1)
+		.max(64)
+		.superRefine((name, ctx) => {
+			const problem = textProblem(name);
+			if (problem !== null) ctx.addIssue({ code: 'custom', message: problem });
+		}),
 	coords: z.enum(COORDS),
 	x: interval,
 	y: interval,

@@ -11,7 +11,7 @@ import { decodeMessage } from './codec';
 import { readFrame, type ReadFrame } from './frame-reader';
 import { DEFAULT_LIMITS, resolveLimits } from './limits';
 import type { FrameMessage } from './types';
-import { validateFrame, type RunDims } from './validate';
+import { T_MAX, T_MIN, validateFrame, type RunDims } from './validate';
 
 const dims: RunDims = { stateDim: 4, measDim: 2 };
 const packr = new Packr({ useRecords: false });
@@ -54,7 +54,7 @@ function randomFrame(seq: number, rnd: () => number): Record<string, unknown> {
 			if (pick() < 0.7) e.id = pick() < 0.5 ? i : `track-${i}`;
 			if (pick() < 0.7) e.P = symmetric(4, pick);
 			if (pick() < 0.7) e.r = pick() < 0.1 ? 1 : pick();
-			if (pick() < 0.2) e.label = 'car';
+			if (pick() < 0.2) e.label = pick() < 0.5 ? 'car' : pick() < 0.5 ? 'Fußgänger' : 'bus 🚌 北';
 			return e;
 		});
 	const nt = size();
@@ -122,6 +122,56 @@ describe('readFrame: valid frames', () => {
 				expect(expected).not.toBeNull();
 				expect(readFrame(bytes, dims, DEFAULT_LIMITS)).toEqual(expected);
 			}
+		}
+	});
+
+	it('reads non-ASCII text and the first and last storable times on the fast path', () => {
+		for (const f of [
+			{ type: 'frame', seq: 1, t: T_MIN, estimates: [{ x: [1, 2, 3, 4], label: 'Fußgänger' }] },
+			{
+				type: 'frame',
+				seq: 2,
+				t: T_MAX - 0.001,
+				measurements: [{ z: [1, 2], sensor: 'radar 北 🚗' }],
+				truth: [{ id: 'ü-7', x: [1, 2, 3, 4] }]
+			}
+		]) {
+			const bytes = packr.pack(f);
+			const expected = generalPath(bytes);
+			expect(expected).not.toBeNull();
+			expect(readFrame(bytes, dims, DEFAULT_LIMITS)).toEqual(expected);
+		}
+	});
+
+	it('leaves every string that is not well-formed UTF-8 to the general path', () => {
+		// overlong '/', an encoded surrogate (U+D800), a lone continuation byte, a truncated 3-byte form, a code
+		// point above U+10FFFF, an overlong surrogate: what a decoder makes of them (msgpackr: U+FFFD, which the
+		// general path accepts) is the general path's call, never the reader's
+		for (const label of [
+			[0xc0, 0xaf],
+			[0xed, 0xa0, 0x80],
+			[0x80],
+			[0xe2, 0x82],
+			[0xf4, 0x90, 0x80, 0x80],
+			[0xf0, 0x8d, 0xa0, 0x80]
+		]) {
+			const bytes = Uint8Array.from([
+				0x83,
+				...packr.pack('type'),
+				...packr.pack('frame'),
+				...packr.pack('seq'),
+				1,
+				...packr.pack('estimates'),
+				0x91,
+				0x82,
+				...packr.pack('x'),
+				...packr.pack([1, 2, 3, 4]),
+				...packr.pack('label'),
+				0xa0 | label.length,
+				...label
+			]);
+			const withT = Uint8Array.from([0x84, ...bytes.subarray(1), ...packr.pack('t'), 2]);
+			expect(readFrame(withT, dims, DEFAULT_LIMITS), label.join(' ')).toBeNull();
 		}
 	});
 
@@ -205,7 +255,15 @@ describe('readFrame: anything else goes to the general path', () => {
 		[
 			'too many truth × estimate pairs',
 			{ ...base, estimates: Array(5).fill(est), truth: Array(5).fill(base.truth[0]) }
-		]
+		],
+		// what the database would refuse (docs/protocol.md, "What storage refuses")
+		['t in milliseconds', { ...base, t: 1_790_000_000_000 }],
+		['t in year 10000', { ...base, t: T_MAX }],
+		['t before year 1', { ...base, t: T_MIN - 0.001 }],
+		['NUL in a label', { ...base, estimates: [{ ...est, label: 'car\0' }] }],
+		['NUL in a sensor', { ...base, measurements: [{ z: [1, 2], sensor: '\0' }] }],
+		['NUL in an id', { ...base, truth: [{ id: 'g\0t', x: [1, 2, 3, 4] }] }],
+		['NUL in an unknown field name', { ...base, ['co\0lour']: 1 }]
 	];
 	const limits = resolveLimits({ maxSetSize: 5, maxPairs: 20 });
 	for (const [name, msg] of cases) {

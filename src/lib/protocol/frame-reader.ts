@@ -11,7 +11,7 @@
  */
 import type { IngestLimits } from './limits';
 import type { EgoPose } from './types';
-import { asymmetricAt, type RunDims } from './validate';
+import { asymmetricAt, T_MAX, T_MIN, type RunDims } from './validate';
 
 /** An estimate as the metrics read it: the stored message keeps ids and labels. */
 export interface ReadEstimate {
@@ -266,13 +266,52 @@ function readCovariance(dim: number, tol: number, out: number[] | null): boolean
 	return true;
 }
 
-/** A string of `min`..`max` UTF-16 units for sure: decided on its byte length, else the general path decides. */
+/**
+ * A string of `min`..`max` UTF-16 units for sure: decided on its byte length, else the general path decides.
+ * Only well-formed UTF-8 without NUL: it decodes to the same text however it is decoded, and that text has
+ * no NUL and no unpaired surrogate, which the general path refuses; anything else is left to it.
+ */
 function skipString(min: number, max: number): boolean {
 	const n = stringHeader();
 	if (n < 0) return false;
+	const start = pos;
 	pos += n;
 	// UTF-16 units ≤ UTF-8 bytes, and a non-empty byte string is a non-empty string
-	return n <= max && (min === 0 || n >= 1);
+	return n <= max && (min === 0 || n >= 1) && wellFormedText(start, pos);
+}
+
+/** Whether buf[from..to) is well-formed UTF-8 (RFC 3629, no surrogates, no overlong forms) with no NUL byte. */
+function wellFormedText(from: number, to: number): boolean {
+	let i = from;
+	while (i < to) {
+		const b = buf[i];
+		if (b >= 0x01 && b <= 0x7f) {
+			i++;
+			continue;
+		}
+		let more: number;
+		let lo = 0x80;
+		let hi = 0xbf;
+		if (b >= 0xc2 && b <= 0xdf) more = 1;
+		else if (b >= 0xe0 && b <= 0xef) {
+			more = 2;
+			if (b === 0xe0) lo = 0xa0;
+			else if (b === 0xed) hi = 0x9f; // U+D800..U+DFFF are surrogates, not characters
+		} else if (b >= 0xf0 && b <= 0xf4) {
+			more = 3;
+			if (b === 0xf0) lo = 0x90;
+			else if (b === 0xf4) hi = 0x8f;
+		} else return false; // NUL, a continuation byte, C0/C1, F5..FF
+		if (i + more >= to) return false;
+		const second = buf[i + 1];
+		if (second < lo || second > hi) return false;
+		for (let k = 2; k <= more; k++) {
+			const c = buf[i + k];
+			if (c < 0x80 || c > 0xbf) return false;
+		}
+		i += more + 1;
+	}
+	return true;
 }
 
 function skipId(limits: IngestLimits): boolean {
@@ -441,7 +480,7 @@ function readTop(dims: RunDims, limits: IngestLimits): ReadFrame | null {
 			if (seen & T_T) return null;
 			numOk = true;
 			frame.t = readFinite();
-			if (!numOk) return null;
+			if (!numOk || frame.t < T_MIN || frame.t >= T_MAX) return null;
 			seen |= T_T;
 		} else if (isKey(K.ego)) {
 			if (seen & T_EGO) return null;

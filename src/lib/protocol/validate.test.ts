@@ -2,7 +2,15 @@ import { Packr } from 'msgpackr';
 import { describe, expect, it } from 'vitest';
 import { decodeMessage } from './codec';
 import { DEFAULT_LIMITS, resolveLimits } from './limits';
-import { formatIssue, readSeq, validateFrame, validateOpen, type Validation } from './validate';
+import {
+	formatIssue,
+	readSeq,
+	T_MAX,
+	T_MIN,
+	validateFrame,
+	validateOpen,
+	type Validation
+} from './validate';
 
 const dims = { stateDim: 4, measDim: 2 };
 
@@ -78,6 +86,57 @@ describe('validateFrame', () => {
 		expect(broken((f) => (f.t = '1'))).toBe('t: expected a finite number, got a string');
 		expect(broken((f) => (f.t = Infinity))).toBe('t: expected a finite number, got Infinity');
 		expect(broken((f) => (f.extra = 1))).toBe('extra: unknown field');
+	});
+
+	it('accepts t in years 1–9999 only, and says when it looks like milliseconds', () => {
+		// the bounds: 0001-01-01T00:00:00Z and 10000-01-01T00:00:00Z, from Date's own arithmetic
+		expect(T_MIN).toBe(Date.parse('0001-01-01T00:00:00Z') / 1000);
+		expect(T_MAX).toBe(Date.parse('9999-12-31T23:59:59Z') / 1000 + 1);
+		expect(broken((f) => (f.t = T_MIN))).toBe('ok');
+		expect(broken((f) => (f.t = T_MAX - 0.001))).toBe('ok');
+		expect(broken((f) => (f.t = -1.5))).toBe('ok');
+		expect(broken((f) => (f.t = T_MAX))).toBe(
+			't: 253402300800 is outside years 1–9999 (-62135596800 ≤ t < 253402300800 seconds since the Unix epoch)'
+		);
+		expect(broken((f) => (f.t = T_MIN - 1))).toMatch(/^t: -62135596801 is outside years 1–9999/);
+		expect(broken((f) => (f.t = 1e300))).toMatch(/^t: 1e\+300 is outside years 1–9999/);
+		expect(broken((f) => (f.t = 1_790_000_000_123))).toBe(
+			't: 1790000000123 looks like milliseconds (2026-09-21 if so); t is in seconds since the Unix epoch, years 1–9999'
+		);
+		expect(broken((f) => (f.t = 1_790_000_000_123_456))).toMatch(/looks like microseconds/);
+		expect(broken((f) => (f.t = 1.79e18))).toMatch(/looks like nanoseconds/);
+	});
+
+	it('accepts only text the database stores: no NUL, no unpaired surrogate', () => {
+		expect(broken((f) => (estimate(f).label = 'Fußgänger 🚶'))).toBe('ok');
+		expect(broken((f) => (estimate(f).label = 'car\0'))).toBe(
+			'estimates[0].label: contains a NUL character (U+0000) at index 3'
+		);
+		expect(broken((f) => (estimate(f).id = 'a\ud83d'))).toBe(
+			'estimates[0].id: contains an unpaired surrogate (U+D83D) at index 1'
+		);
+		expect(broken((f) => (estimate(f).id = '\ude80x'))).toBe(
+			'estimates[0].id: contains an unpaired surrogate (U+DE80) at index 0'
+		);
+		expect(broken((f) => (measurement(f).sensor = '\0'))).toBe(
+			'measurements[0].sensor: contains a NUL character (U+0000) at index 0'
+		);
+		expect(broken((f) => ((f.truth as Record<string, unknown>[])[0].id = 'g\0'))).toBe(
+			'truth[0].id: contains a NUL character (U+0000) at index 1'
+		);
+	});
+
+	it('writes an unknown field name into the reason as storable text', () => {
+		expect(broken((f) => (f['co\0lour'] = 1))).toBe('co\\u0000lour: unknown field');
+		expect(broken((f) => (estimate(f)['\ud800'] = 1))).toBe('estimates[0].\\ud800: unknown field');
+		expect(broken((f) => (f['\u001b[31mred'] = 1))).toBe('\\u001b[31mred: unknown field');
+		// cut at 40 units, never inside a surrogate pair
+		expect(broken((f) => (f['k'.repeat(39) + '🚗🚗'] = 1))).toBe(
+			`${'k'.repeat(39)}…: unknown field`
+		);
+		expect(broken((f) => (f['k'.repeat(38) + '🚗🚗'] = 1))).toBe(
+			`${'k'.repeat(38)}🚗…: unknown field`
+		);
 	});
 
 	it('checks ego', () => {
@@ -351,5 +410,24 @@ describe('validateOpen', () => {
 		expect(checkOpen(open({ notes: 5 }))).toBe('run.notes: expected a string, got 5');
 		expect(checkOpen(open({ colour: 'red' }))).toBe('run.colour: unknown field');
 		expect(checkOpen(open({}, { version: 2 }))).toBe('version: unknown field');
+	});
+
+	it('refuses NUL and unpaired surrogates in every string it stores', () => {
+		const nul = 'contains a NUL character (U+0000) at index 1';
+		expect(checkOpen(open({}, { client_run_id: 'c\0' }))).toBe(`client_run_id: ${nul}`);
+		expect(checkOpen(open({ name: 'n\0' }))).toBe(`run.name: ${nul}`);
+		expect(checkOpen(open({ state_fields: ['x', 'y', 'v\0'] }))).toBe(
+			`run.state_fields[2]: ${nul}`
+		);
+		expect(checkOpen(open({ measurement_fields: ['x', 'y\0'] }))).toBe(
+			`run.measurement_fields[1]: ${nul}`
+		);
+		expect(checkOpen(open({ tags: ['ok', 't\0'] }))).toBe(`run.tags[1]: ${nul}`);
+		expect(checkOpen(open({ notes: 'n\0tes' }))).toBe(`run.notes: ${nul}`);
+		expect(checkOpen(open({ name: 'n\udfff' }))).toBe(
+			'run.name: contains an unpaired surrogate (U+DFFF) at index 1'
+		);
+		expect(checkOpen(open({ name: 'Nachtfahrt Süd 🌙' }))).toBe('ok');
+		expect(checkOpen(open({ 'co\0ords': 'x' }))).toBe('run.co\\u0000ords: unknown field');
 	});
 });

@@ -6,7 +6,9 @@
  * Rules that are decisions rather than obvious:
  * - unknown fields are rejected, at every level (nothing is dropped silently);
  * - `null` is never accepted in place of an absent field;
- * - fields are checked in the documented order, then unknown fields; the first failure is reported.
+ * - fields are checked in the documented order, then unknown fields; the first failure is reported;
+ * - nothing the database would refuse gets through (docs/protocol.md, "What storage refuses"): strings are
+ *   Unicode text without NUL, and `t` lies in years 1–9999, so a frame's content never fails its commit.
  */
 import { DEFAULT_LIMITS, type IngestLimits } from './limits';
 import type { FrameMessage, OpenMessage } from './types';
@@ -72,15 +74,83 @@ function expectedNumber(v: unknown): string {
 	return `expected a finite number, got ${describe(v)}`;
 }
 
+/**
+ * An unknown field's name as it appears in a reason (which is stored): at most 40 UTF-16 units, never half a
+ * surrogate pair, with control characters and unpaired surrogates written as \uXXXX escapes.
+ */
 function fieldKey(key: string): string {
-	return key.length > 40 ? `${key.slice(0, 40)}…` : key;
+	let cut = key.length > 40 ? 40 : key.length;
+	if (cut < key.length && isHighSurrogate(key.charCodeAt(cut - 1))) cut--;
+	let out = '';
+	for (let i = 0; i < cut; i++) {
+		const c = key.charCodeAt(i);
+		const paired = isHighSurrogate(c)
+			? i + 1 < cut && isLowSurrogate(key.charCodeAt(i + 1))
+			: isLowSurrogate(c) && i > 0 && isHighSurrogate(key.charCodeAt(i - 1));
+		if (c < 0x20 || c === 0x7f || (c >= 0xd800 && c <= 0xdfff && !paired)) {
+			out += `\\u${c.toString(16).padStart(4, '0')}`;
+		} else out += key[i];
+	}
+	return cut < key.length ? `${out}…` : out;
+}
+
+function isHighSurrogate(c: number): boolean {
+	return c >= 0xd800 && c <= 0xdbff;
+}
+
+function isLowSurrogate(c: number): boolean {
+	return c >= 0xdc00 && c <= 0xdfff;
+}
+
+/**
+ * Why a string is not text the database stores (PostgreSQL's text refuses U+0000; its jsonb refuses
+ * `\u0000` and unpaired surrogates), or null when it is.
+ */
+export function textProblem(v: string): string | null {
+	for (let i = 0; i < v.length; i++) {
+		const c = v.charCodeAt(i);
+		if (c === 0) return `contains a NUL character (U+0000) at index ${i}`;
+		if (c < 0xd800 || c > 0xdfff) continue;
+		if (isHighSurrogate(c) && i + 1 < v.length && isLowSurrogate(v.charCodeAt(i + 1))) {
+			i++;
+			continue;
+		}
+		return `contains an unpaired surrogate (U+${c.toString(16).toUpperCase()}) at index ${i}`;
+	}
+	return null;
 }
 
 function checkString(v: unknown, min: number, max: number): string | null {
 	if (typeof v !== 'string') return `expected a string, got ${describe(v)}`;
 	if (v.length < min) return min === 1 ? 'must not be empty' : `must be at least ${min} characters`;
 	if (v.length > max) return `${v.length} characters, at most ${max}`;
-	return null;
+	return textProblem(v);
+}
+
+/** Device time PostgreSQL's timestamps hold for Skein: 0001-01-01T00:00:00Z ≤ t < 10000-01-01T00:00:00Z. */
+export const T_MIN = -62_135_596_800;
+export const T_MAX = 253_402_300_800;
+
+const timeUnits: [number, string][] = [
+	[1e3, 'milliseconds'],
+	[1e6, 'microseconds'],
+	[1e9, 'nanoseconds']
+];
+
+/**
+ * Why `t` (finite) cannot be stored, or null when it can. A value that is a time after 2001 once divided by
+ * 1e3, 1e6 or 1e9 is named as a clock in that unit, the usual rig mistake.
+ */
+export function timeProblem(t: number): string | null {
+	if (t >= T_MIN && t < T_MAX) return null;
+	for (const [factor, unit] of timeUnits) {
+		const s = t / factor;
+		if (s >= 1e9 && s < T_MAX) {
+			const day = new Date(Math.floor(s) * 1000).toISOString().slice(0, 10);
+			return `${t} looks like ${unit} (${day} if so); t is in seconds since the Unix epoch, years 1–9999`;
+		}
+	}
+	return `${t} is outside years 1–9999 (${T_MIN} ≤ t < ${T_MAX} seconds since the Unix epoch)`;
 }
 
 function checkVector(v: unknown, len: number): Issue | null {
@@ -259,6 +329,8 @@ export function validateFrame(
 	}
 	if (msg.t === undefined) return fail('t', 'missing');
 	if (!isFiniteNumber(msg.t)) return fail('t', expectedNumber(msg.t));
+	const when = timeProblem(msg.t);
+	if (when !== null) return fail('t', when);
 	if (msg.ego !== undefined) {
 		const found = checkEgo(msg.ego);
 		if (found !== null) return at('ego', found);

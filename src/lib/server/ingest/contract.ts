@@ -67,6 +67,15 @@ export interface QuarantinedToStore {
 	reason: string;
 }
 
+/** What a commit did besides storing the frames. */
+export interface CommitOutcome {
+	/**
+	 * Frames of the batch the database refused for what they hold (validation should have caught them): they
+	 * were quarantined in the same transaction instead of being stored, each with the database's reason.
+	 */
+	refused: QuarantinedToStore[];
+}
+
 export interface IngestStore {
 	/** Unknown, revoked and expired keys resolve to { ok: false }. */
 	resolveKey(key: string): Promise<KeyResolution>;
@@ -81,13 +90,14 @@ export interface IngestStore {
 	 * Stores frames and quarantined messages of one run in ONE transaction and resolves once it is
 	 * durable. Their seqs together form one contiguous range following what is already stored.
 	 * Must be idempotent per (run, seq): a seq already stored is skipped, never duplicated.
-	 * Rejecting means nothing of the batch was stored.
+	 * Rejecting means storage is unavailable and nothing of the batch was stored (the rig resends it), so a
+	 * frame the database refuses for its content must not reject: it is quarantined and reported as refused.
 	 */
 	commitFrames(
 		runId: string,
 		frames: FrameToStore[],
 		quarantined: QuarantinedToStore[]
-	): Promise<void>;
+	): Promise<CommitOutcome | void>;
 
 	/**
 	 * Optional: called as each valid frame is accepted, before it is batched, so a store can do its per-frame

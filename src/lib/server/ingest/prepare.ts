@@ -8,8 +8,19 @@ import { cardinalitySd, frameMetricsFor, rowOf } from './frame-rows';
 import { RowPool, type PreparedRow } from './row-pool';
 import type { RunContext } from './run-cache';
 
+/** A frame's row, and the run's metric settings (as stored text, RunContext.settingsText) it is computed with. */
+export interface RowFor {
+	row: PreparedRow;
+	settingsText: string;
+}
+
+interface Pending {
+	row: Promise<PreparedRow>;
+	settingsText: string;
+}
+
 export class RowPreparer {
-	#prepared = new WeakMap<FrameToStore, Promise<PreparedRow>>();
+	#prepared = new WeakMap<FrameToStore, Pending>();
 	#pool: RowPool | null;
 	#metricColumns = process.env.INGEST_METRIC_COLUMNS !== 'off';
 
@@ -20,12 +31,21 @@ export class RowPreparer {
 
 	/** Starts the frame's row unless it is already started. */
 	start(runId: string, frame: FrameToStore, ctx: RunContext): void {
-		if (!this.#prepared.has(frame)) this.#prepared.set(frame, this.#prepare(runId, frame, ctx));
+		if (!this.#prepared.has(frame)) this.#prepared.set(frame, this.#pending(runId, frame, ctx));
 	}
 
 	/** The frame's row: the one started for it, or computed now. */
-	row(runId: string, frame: FrameToStore, ctx: RunContext): Promise<PreparedRow> {
-		return this.#prepared.get(frame) ?? this.#prepare(runId, frame, ctx);
+	row(runId: string, frame: FrameToStore, ctx: RunContext): Promise<RowFor> {
+		return settled(this.#prepared.get(frame) ?? this.#pending(runId, frame, ctx));
+	}
+
+	/** The frame's row computed again, with the context's settings now (after a settings save). */
+	again(runId: string, frame: FrameToStore, ctx: RunContext): Promise<RowFor> {
+		return settled(this.#pending(runId, frame, ctx));
+	}
+
+	#pending(runId: string, frame: FrameToStore, ctx: RunContext): Pending {
+		return { row: this.#prepare(runId, frame, ctx), settingsText: ctx.settingsText };
 	}
 
 	#prepare(runId: string, f: FrameToStore, ctx: RunContext): Promise<PreparedRow> {
@@ -51,4 +71,8 @@ export class RowPreparer {
 		prepared.catch(() => {});
 		return prepared;
 	}
+}
+
+async function settled(p: Pending): Promise<RowFor> {
+	return { row: await p.row, settingsText: p.settingsText };
 }

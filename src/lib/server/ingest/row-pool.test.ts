@@ -11,7 +11,7 @@ import { fromMsgpack } from '$lib/protocol/codec';
 import type { Frame } from '$lib/protocol/types';
 import { frameTuple, uuidBytes } from './copy-binary';
 import { frameRow, type RowContext } from './frame-rows';
-import { RowPool } from './row-pool';
+import { RowPool, type PreparedRow } from './row-pool';
 
 const runId = '0b6f3a52-8a11-4c3e-9a55-4d2f1f0c7e01';
 const packr = new Packr({ useRecords: false });
@@ -36,6 +36,40 @@ function frame(seq: number, rnd: () => number): Record<string, unknown> {
 	return f;
 }
 
+/** Queues every frame in one tick (one worker batch), `ctxOf(i)` the context of frame i. */
+function prepareAll(
+	pool: RowPool,
+	frames: Record<string, unknown>[],
+	ctxOf: (i: number) => RowContext
+) {
+	return Promise.all(
+		frames.map((f, i) =>
+			pool.prepare(runId, ctxOf(i), dims, {
+				seq: f.seq as number,
+				t: f.t as number,
+				raw: packr.pack(f)
+			})
+		)
+	);
+}
+
+/** Each prepared row is the row computed inline with its frame's context. */
+function expectInlineRows(
+	prepared: PreparedRow[],
+	frames: Record<string, unknown>[],
+	ctxOf: (i: number) => RowContext
+) {
+	frames.forEach((f, i) => {
+		const raw = packr.pack(f);
+		const decoded = fromMsgpack(raw) as Frame;
+		const row = frameRow(runId, { seq: decoded.seq, t: decoded.t, raw, frame: decoded }, ctxOf(i));
+		expect(Buffer.from(prepared[i].tuple)).toEqual(frameTuple(uuidBytes(runId), row));
+		expect(prepared[i].metrics.gospa).toBe(row.gospa);
+		expect(prepared[i].metrics.zones).toEqual(row.zones ?? {});
+		expect(prepared[i].cardinalitySd).toBe(row.cardinality_sd);
+	});
+}
+
 const pools: RowPool[] = [];
 afterAll(async () => {
 	for (const p of pools) await p.close();
@@ -54,26 +88,28 @@ describe('RowPool', () => {
 			for (const coords of ['world', 'ego'] as const) {
 				const ctx: RowContext = { stateFields: ['x', 'y', 'vx', 'vy'], settings: s, coords };
 				const frames = Array.from({ length: 50 }, (_, i) => frame(i, rnd));
-				const prepared = await Promise.all(
-					frames.map((f) =>
-						pool.prepare(runId, ctx, dims, {
-							seq: f.seq as number,
-							t: f.t as number,
-							raw: packr.pack(f)
-						})
-					)
-				);
-				frames.forEach((f, i) => {
-					const raw = packr.pack(f);
-					const decoded = fromMsgpack(raw) as Frame;
-					const row = frameRow(runId, { seq: decoded.seq, t: decoded.t, raw, frame: decoded }, ctx);
-					expect(Buffer.from(prepared[i].tuple)).toEqual(frameTuple(uuidBytes(runId), row));
-					expect(prepared[i].metrics.gospa).toBe(row.gospa);
-					expect(prepared[i].metrics.zones).toEqual(row.zones ?? {});
-					expect(prepared[i].cardinalitySd).toBe(row.cardinality_sd);
-				});
+				const prepared = await prepareAll(pool, frames, () => ctx);
+				expectInlineRows(prepared, frames, () => ctx);
 			}
 		}
+	});
+
+	it("computes each frame with its own settings when a run's frames before and after a save share a worker batch", async () => {
+		const pool = new RowPool();
+		pools.push(pool);
+		const rnd = seededRandom(11);
+		const before: RowContext = {
+			stateFields: ['x', 'y', 'vx', 'vy'],
+			settings: { ...defaultMetricSettings, zones: [] },
+			coords: 'world'
+		};
+		// the settings a save put in place: another cut-off and one zone more
+		const after: RowContext = { ...before, settings: { ...defaultMetricSettings, c: 2 } };
+		const frames = Array.from({ length: 6 }, (_, i) => frame(i, rnd));
+		const ctxOf = (i: number) => (i % 2 === 0 ? before : after);
+		// queued in one tick, so they go to the worker in one batch
+		const prepared = await prepareAll(pool, frames, ctxOf);
+		expectInlineRows(prepared, frames, ctxOf);
 	});
 
 	it('decodes a frame the fast reader declines (a set over the default limit) instead of failing', async () => {

@@ -313,7 +313,8 @@ export class RowPool {
 
 	#post(slot: Slot, items: Waiting[]): void {
 		const runs: RowBatch['runs'] = [];
-		const runIndex = new Map<string, number>();
+		// one entry per run and settings: a run's frames computed before and after a settings save may meet here
+		const runIndex = new Map<string, Map<RowContext['settings'], number>>();
 		let total = 0;
 		for (const w of items) total += w.raw.byteLength;
 		const data = new Uint8Array(total);
@@ -329,11 +330,13 @@ export class RowPool {
 		};
 		let o = 0;
 		items.forEach((w, i) => {
-			let r = runIndex.get(w.runId);
+			let bySettings = runIndex.get(w.runId);
+			if (bySettings === undefined) runIndex.set(w.runId, (bySettings = new Map()));
+			let r = bySettings.get(w.ctx.settings);
 			if (r === undefined) {
 				r = runs.length;
 				runs.push({ runId: w.runId, ctx: w.ctx, dims: w.dims });
-				runIndex.set(w.runId, r);
+				bySettings.set(w.ctx.settings, r);
 			}
 			batch.run[i] = r;
 			batch.seq[i] = w.seq;

@@ -8,6 +8,7 @@ import type postgres from 'postgres';
 import type { Run } from '$lib/api-types';
 import type { IngestRunState, RunSpec } from '$lib/protocol/types';
 import type {
+	CommitOutcome,
 	FrameToStore,
 	IngestStore,
 	KeyResolution,
@@ -20,6 +21,7 @@ import { sqlClient } from '$server/db';
 import { openStreamedRun, setStreamedRunState } from '$server/runs/streamed';
 import { commitBatch } from './commit';
 import { RowPreparer } from './prepare';
+import { refusalReason, refusedForContent } from './refused';
 import { RunCache } from './run-cache';
 
 function specOf(run: Run): RunSpec {
@@ -55,10 +57,18 @@ export class PostgresIngestStore implements IngestStore {
 	}
 
 	async openRun(req: OpenRunRequest): Promise<OpenRunResult> {
-		const { run, resumed } = await openStreamedRun(req.rig.rigId, req.clientRunId, req.spec);
+		let opened: Awaited<ReturnType<typeof openStreamedRun>>;
+		try {
+			opened = await openStreamedRun(req.rig.rigId, req.clientRunId, req.spec);
+		} catch (err) {
+			// the open's content (validation should have caught it), not the database: answered as invalid_open
+			if (!refusedForContent(err)) throw err;
+			return { ok: false, reason: `the database refused this open: ${refusalReason(err)}` };
+		}
+		const { run, resumed, settingsText } = opened;
 		if (run.status === 'imported')
 			return { ok: false, reason: 'this run was imported and cannot be streamed to' };
-		this.#runs.opened(run, req.rig.keyId, run.next_seq);
+		this.#runs.opened(run, settingsText, req.rig.keyId, run.next_seq);
 		return {
 			ok: true,
 			runId: run.id,
@@ -81,11 +91,18 @@ export class PostgresIngestStore implements IngestStore {
 		runId: string,
 		frames: FrameToStore[],
 		quarantined: QuarantinedToStore[]
-	): Promise<void> {
-		if (frames.length === 0 && quarantined.length === 0) return;
+	): Promise<CommitOutcome> {
+		if (frames.length === 0 && quarantined.length === 0) return { refused: [] };
 		const ctx = await this.#runs.get(runId);
-		const prepared = await Promise.all(frames.map((f) => this.#rows.row(runId, f, ctx)));
-		await commitBatch(this.#sql, runId, ctx, frames, prepared, quarantined);
+		const rows = await Promise.all(frames.map((f) => this.#rows.row(runId, f, ctx)));
+		return commitBatch(this.#sql, {
+			runId,
+			ctx,
+			frames,
+			rows,
+			quarantined,
+			recompute: (f) => this.#rows.again(runId, f, ctx)
+		});
 	}
 
 	async setRunState(runId: string, state: IngestRunState): Promise<void> {

@@ -6,11 +6,8 @@
 import { frameMetrics } from '$lib/metrics';
 import { sqlClient } from '$server/db';
 import { decodeStoredFrame, frameContext, metricRun } from './run';
-import { SETTINGS_TTL_MS } from './settings';
 
 export type RecomputeOutcome = 'done' | 'superseded' | 'gone';
-
-const sleep = (ms: number) => new Promise((r) => setTimeout(r, ms));
 
 export async function recomputeRun(
 	runId: string,
@@ -18,10 +15,10 @@ export async function recomputeRun(
 	batch = 500
 ): Promise<RecomputeOutcome> {
 	const sql = sqlClient();
-	const [claim] = await sql<{ saved_at_ms: number }[]>`
+	const [claim] = await sql`
 		update metric_recomputes set state = 'running', progress = 0, error = null, updated_at = now()
 		where run_id = ${runId} and version = ${version}
-		returning (extract(epoch from settings_saved_at) * 1000)::float8 as saved_at_ms`;
+		returning 1`;
 	if (!claim) return 'superseded';
 	const run = await metricRun(runId);
 	if (!run) return 'gone';
@@ -32,14 +29,10 @@ export async function recomputeRun(
 	for (;;) {
 		const rows = await sql<{ seq: number; data: Buffer }[]>`
 			select seq::float8 as seq, data from frames where run_id = ${runId} and seq > ${after} order by seq limit ${batch}`;
-		if (rows.length === 0) {
-			// A live run's ingest may still be using the old settings for up to SETTINGS_TTL_MS after the
-			// save; frames it stores meanwhile are picked up by waiting that long before finishing.
-			const wait = claim.saved_at_ms + 2 * SETTINGS_TTL_MS - Date.now();
-			if (wait <= 0) break;
-			await sleep(wait);
-			continue;
-		}
+		// Done: a live run's ingest stores every frame committed after the save with the saved settings (it reads
+		// them under the run's row lock in each commit), and this job, queued after the save, read every frame
+		// committed before it.
+		if (rows.length === 0) break;
 		const values = rows.map((r) => {
 			const m = frameMetrics(decodeStoredFrame(r.data), ctx);
 			return { ...m, seq: r.seq, zones: Object.keys(m.zones).length ? m.zones : null };

@@ -3,12 +3,6 @@ import type { RecomputeState, RecomputeStatus } from '$lib/api-types';
 import { parseMetricSettings, type MetricSettings } from '$lib/metrics';
 import { sqlClient } from '$server/db';
 
-/**
- * How stale a live run's metric settings may get: the ingest store re-reads them this often, and the recompute
- * job waits this long before it finishes.
- */
-export const SETTINGS_TTL_MS = 1000;
-
 export async function recomputeStatus(runId: string): Promise<RecomputeStatus> {
 	const sql = sqlClient();
 	const [row] = await sql<

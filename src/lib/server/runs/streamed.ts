@@ -10,9 +10,24 @@ const { runs } = schema;
 
 /**
  * The rig's run with this client_run_id as it is (`resumed`), or a new live run. `clientRunId` null: always a
- * new run. Two connections of one rig opening the same run at once get the same run.
+ * new run. Two connections of one rig opening the same run at once get the same run. `settingsText`: the run's
+ * metric settings as jsonb text (null for none), read after the run, which ingest takes its settings from and
+ * compares with what each commit reads under the run's row lock.
  */
 export async function openStreamedRun(
+	rigId: string,
+	clientRunId: string | null,
+	spec: RunSpec
+): Promise<{ run: Run; resumed: boolean; settingsText: string | null }> {
+	const opened = await openOrFind(rigId, clientRunId, spec);
+	const [row] = await db()
+		.select({ text: sql<string | null>`${runs.metricSettings}::text` })
+		.from(runs)
+		.where(eq(runs.id, opened.run.id));
+	return { ...opened, settingsText: row?.text ?? null };
+}
+
+async function openOrFind(
 	rigId: string,
 	clientRunId: string | null,
 	spec: RunSpec
