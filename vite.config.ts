@@ -13,7 +13,9 @@ export default defineConfig({
 				test: {
 					name: 'unit',
 					include: ['src/**/*.test.ts', 'server-ws/**/*.test.ts', 'tools/**/*.test.ts'],
-					environment: 'node'
+					environment: 'node',
+					// the simulator, filter and fuzz tests are CPU-bound: seconds on a busy 2-core machine
+					testTimeout: 30_000
 				}
 			},
 			{
